@@ -1,0 +1,1 @@
+"""Tidy export tables shared by live sessions and the pilot simulator."""

@@ -1,0 +1,102 @@
+"""Turn round outcomes into rows of the contract tables."""
+
+from __future__ import annotations
+
+from collections.abc import Iterable
+from decimal import Decimal
+
+from game_logic.payoffs import payment, points
+from game_logic.rounds import RoundOutcome
+from game_logic.study import Study
+
+
+def group_code(group: int) -> str:
+    """Printable id of group ``group`` (0-based): G01, G02, ..."""
+    return f"G{group + 1:02d}"
+
+
+def seat_code(group: int, seat: int) -> str:
+    """Printable id of a seat (both 0-based): G01-1, G01-2, ..."""
+    return f"{group_code(group)}-{seat + 1}"
+
+
+def decision_rows(
+    study: Study, session_id: str, outcome: RoundOutcome, sources: Iterable[str]
+) -> list[dict]:
+    """One row per seat for a resolved round; ``sources`` gives each seat's entry channel."""
+    treatment = study.blocks[outcome.block].treatment_for(outcome.group)
+    return [
+        {
+            "session_id": session_id,
+            "group_id": group_code(outcome.group),
+            "seat_id": seat_code(outcome.group, seat),
+            "block": outcome.block + 1,
+            "treatment": treatment,
+            "round": outcome.round,
+            "stock_before": outcome.stock_before,
+            "harvest_asked": asked,
+            "harvest_taken": taken,
+            "points": points(taken, study.payment),
+            "source": source,
+        }
+        for seat, (asked, taken, source) in enumerate(
+            zip(outcome.asked, outcome.taken, sources, strict=True)
+        )
+    ]
+
+
+def round_row(study: Study, session_id: str, outcome: RoundOutcome) -> dict:
+    """The group-round row of a resolved round (hidden threshold included: analysts see all)."""
+    block = study.blocks[outcome.block]
+    return {
+        "session_id": session_id,
+        "group_id": group_code(outcome.group),
+        "block": outcome.block + 1,
+        "treatment": block.treatment_for(outcome.group),
+        "round": outcome.round,
+        "stock_before": outcome.stock_before,
+        "total_taken": outcome.total_taken,
+        "remaining": outcome.remaining,
+        "stock_after": outcome.stock_after,
+        "regime_after": str(outcome.regime_after),
+        "threshold": "" if outcome.threshold is None else outcome.threshold,
+        "crossed": outcome.crossed,
+        "regime_before": str(outcome.regime_before),
+        "recovered": outcome.recovered,
+        "regrowth": outcome.regrowth,
+        "block_name": block.name,
+        "talk": block.talk,
+        "show_others": block.show_others,
+        "end_reason": outcome.end_reason or "",
+    }
+
+
+def seat_rows(
+    study: Study, session_id: str, decisions: list[dict], groups: int | None = None
+) -> list[dict]:
+    """Totals and cash per seat, from the decision rows (every seat listed, even idle ones).
+
+    ``groups`` defaults to the study's group count; the pilot plays more.
+    """
+    count = study.groups.count if groups is None else groups
+    totals: dict[tuple[int, int], float] = {
+        (g, s): 0.0 for g in range(count) for s in range(study.seats)
+    }
+    by_code = {seat_code(g, s): (g, s) for g, s in totals}
+    for row in decisions:
+        totals[by_code[row["seat_id"]]] += row["points"]
+    return [
+        {
+            "session_id": session_id,
+            "group_id": group_code(g),
+            "seat_id": seat_code(g, s),
+            "points_total": total,
+            "payment": _money(payment(total, study.payment)),
+            "currency": study.payment.currency,
+        }
+        for (g, s), total in totals.items()
+    ]
+
+
+def _money(amount: Decimal) -> float | int:
+    return int(amount) if amount == amount.to_integral_value() else float(amount)

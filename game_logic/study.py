@@ -1,0 +1,315 @@
+"""Study design files: TOML in, a validated, frozen ``Study`` out.
+
+Every number of a session lives in the study file. Validation collects every
+problem at once and names, for each, the key, what it holds and what is allowed,
+so a researcher can fix the file before the trip rather than in the village hall.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import tomllib
+from pathlib import Path
+from typing import Annotated, Literal
+
+from pydantic import BaseModel, ConfigDict, Field, ValidationError, model_validator
+
+from .errors import StudyError
+
+TREATMENTS = ("none", "vague", "range", "exact", "risk", "signal")
+GROWTH_LAWS = ("logistic", "allee", "grazing", "step")
+THRESHOLD_RULES = ("none", "fixed", "uniform")
+END_RULES = ("fixed", "random")
+
+Treatment = Literal["none", "vague", "range", "exact", "risk", "signal"]
+PositiveFloat = Annotated[float, Field(gt=0)]
+Probability = Annotated[float, Field(ge=0, le=1)]
+
+
+class _Frozen(BaseModel):
+    model_config = ConfigDict(frozen=True, extra="forbid")
+
+
+class SessionSpec(_Frozen):
+    """Who, where and how long: the parts of the design that are not dynamics."""
+
+    id: Annotated[str, Field(pattern=r"^[a-z0-9][a-z0-9-]{1,47}$")]
+    title: Annotated[str, Field(min_length=1, max_length=120)]
+    place: str = ""
+    language: str = "en"
+    languages: tuple[str, ...] = ("en",)
+    setup_minutes: Annotated[float, Field(ge=0, le=240)] = 20
+    minutes_per_round: Annotated[float, Field(gt=0, le=30)] = 2.5
+    debrief_minutes: Annotated[float, Field(ge=0, le=120)] = 15
+
+    @model_validator(mode="after")
+    def _language_offered(self):
+        if self.language not in self.languages:
+            raise ValueError(
+                f"session.language holds {self.language!r}, which is not among "
+                f"session.languages {list(self.languages)}"
+            )
+        return self
+
+
+class GroupsSpec(_Frozen):
+    """How many groups play at once and how many seats each has."""
+
+    count: Annotated[int, Field(ge=1, le=20)]
+    seats_per_group: Annotated[int, Field(ge=2, le=12)]
+
+
+class GrowthSpec(_Frozen):
+    """Regrowth law of the good regime; see ``game_logic.resource`` for formulas."""
+
+    law: Literal["logistic", "allee", "grazing", "step"] = "logistic"
+    r: Annotated[float, Field(gt=0, le=4)] = 0.5
+    allee_point: Annotated[float, Field(gt=0)] | None = None
+    consumption: Annotated[float, Field(ge=0)] | None = None
+    half_saturation: Annotated[float, Field(gt=0)] | None = None
+    step_at: Annotated[float, Field(gt=0)] | None = None
+    below_factor: Annotated[float, Field(ge=0, le=1)] = 0.2
+
+    @model_validator(mode="after")
+    def _law_parameters(self):
+        needed = {
+            "allee": ("allee_point",),
+            "grazing": ("consumption", "half_saturation"),
+            "step": ("step_at",),
+        }.get(self.law, ())
+        missing = [name for name in needed if getattr(self, name) is None]
+        if missing:
+            raise ValueError(
+                f"growth law {self.law!r} needs resource.growth."
+                + ", resource.growth.".join(missing)
+            )
+        return self
+
+
+class ResourceSpec(_Frozen):
+    """The shared stock: capacity, start, per-seat harvest cap and regrowth."""
+
+    unit: Annotated[str, Field(min_length=1, max_length=30)] = "units"
+    capacity: Annotated[int, Field(ge=10, le=100_000)] = 100
+    initial_stock: Annotated[int, Field(ge=1)] = 80
+    max_harvest: Annotated[int, Field(ge=1, le=100)] = 10
+    degraded_growth_factor: Annotated[float, Field(ge=0, lt=1)] = 0.2
+    growth: GrowthSpec = GrowthSpec()
+
+    @model_validator(mode="after")
+    def _within_capacity(self):
+        if self.initial_stock > self.capacity:
+            raise ValueError(
+                f"resource.initial_stock holds {self.initial_stock}, above "
+                f"resource.capacity {self.capacity}; allowed: 1..{self.capacity}"
+            )
+        if self.growth.allee_point is not None and self.growth.allee_point >= self.capacity:
+            raise ValueError("resource.growth.allee_point must lie below resource.capacity")
+        return self
+
+
+class ThresholdSpec(_Frozen):
+    """The hidden collapse threshold T, its recovery level T + gap and the flip risk."""
+
+    rule: Literal["none", "fixed", "uniform"] = "uniform"
+    value: Annotated[float, Field(gt=0)] | None = None
+    low: Annotated[float, Field(gt=0)] | None = None
+    high: Annotated[float, Field(gt=0)] | None = None
+    recovery_gap: Annotated[float, Field(ge=0)] = 15
+    flip_probability: Probability = 1.0
+    shown_range: tuple[float, float] | None = None
+    redraw_each_block: bool = False
+
+    @model_validator(mode="after")
+    def _rule_parameters(self):
+        if self.rule == "fixed" and self.value is None:
+            raise ValueError("threshold.rule 'fixed' needs threshold.value")
+        if self.rule == "uniform":
+            if self.low is None or self.high is None:
+                raise ValueError("threshold.rule 'uniform' needs threshold.low and threshold.high")
+            if not self.low < self.high:
+                raise ValueError(
+                    f"threshold.low ({self.low}) must be below threshold.high ({self.high})"
+                )
+        if self.shown_range is not None:
+            lo, hi = self.shown_range
+            if not lo < hi:
+                raise ValueError(f"threshold.shown_range {list(self.shown_range)} must be [low, high]")
+            if self.rule == "fixed" and not lo <= self.value <= hi:
+                raise ValueError(
+                    f"threshold.value {self.value} lies outside threshold.shown_range "
+                    f"{list(self.shown_range)}: participants would be told a false range"
+                )
+            if self.rule == "uniform" and (self.low < lo or self.high > hi):
+                raise ValueError(
+                    f"threshold.shown_range {list(self.shown_range)} must contain "
+                    f"[threshold.low, threshold.high] = [{self.low}, {self.high}]"
+                )
+        return self
+
+    @property
+    def support(self) -> tuple[float, float] | None:
+        """Interval of values the threshold can take (None when there is none)."""
+        if self.rule == "fixed":
+            return (self.value, self.value)
+        if self.rule == "uniform":
+            return (self.low, self.high)
+        return None
+
+    @property
+    def range_shown(self) -> tuple[float, float] | None:
+        """Interval told to participants under the ``range`` treatment."""
+        if self.shown_range is not None:
+            return tuple(self.shown_range)
+        if self.rule == "uniform":
+            return (self.low, self.high)
+        return None
+
+
+class EndSpec(_Frozen):
+    """When a block ends: its fixed length, or random stopping; exhaustion always may."""
+
+    rule: Literal["fixed", "random"] = "fixed"
+    continuation_probability: Annotated[float, Field(gt=0, lt=1)] | None = None
+    min_rounds: Annotated[int, Field(ge=1)] = 1
+    stop_when_exhausted: bool = True
+
+    @model_validator(mode="after")
+    def _random_needs_probability(self):
+        if self.rule == "random" and self.continuation_probability is None:
+            raise ValueError("end.rule 'random' needs end.continuation_probability (0 < p < 1)")
+        return self
+
+
+class BlockSpec(_Frozen):
+    """A run of rounds under one information treatment and its switches."""
+
+    name: Annotated[str, Field(min_length=1, max_length=40)]
+    treatment: Treatment = "none"
+    # Between-groups designs: group g plays treatments[g % len(treatments)].
+    treatments: Annotated[tuple[Treatment, ...], Field(min_length=1, max_length=6)] | None = None
+    rounds: Annotated[int, Field(ge=1, le=100)] = 10
+    talk: bool = False
+    talk_seconds: Annotated[int, Field(ge=10, le=1800)] = 120
+    show_others: bool = False
+    reset_stock: bool = True
+
+    @model_validator(mode="after")
+    def _one_way_to_say_it(self):
+        if self.treatments is not None and "treatment" in self.model_fields_set:
+            raise ValueError(
+                f"block {self.name!r} sets both treatment and treatments; use one of them"
+            )
+        return self
+
+    def treatment_for(self, group: int) -> str:
+        """Treatment of group ``group`` (0-based) in this block, by rotation."""
+        if self.treatments is None:
+            return self.treatment
+        return self.treatments[group % len(self.treatments)]
+
+    @property
+    def all_treatments(self) -> tuple[str, ...]:
+        return self.treatments if self.treatments is not None else (self.treatment,)
+
+
+class PaymentSpec(_Frozen):
+    """Points per unit taken and their conversion to real money."""
+
+    points_per_unit: Annotated[float, Field(gt=0)] = 1
+    currency: Annotated[str, Field(min_length=1, max_length=20)] = "marks"
+    exchange_rate: Annotated[float, Field(ge=0)] = 1
+    show_up_fee: Annotated[float, Field(ge=0)] = 0
+    round_up_to: Annotated[float, Field(gt=0)] = 1
+
+
+class Study(_Frozen):
+    """A whole validated design. Frozen: the running session never changes it."""
+
+    session: SessionSpec
+    groups: GroupsSpec
+    resource: ResourceSpec = ResourceSpec()
+    threshold: ThresholdSpec = ThresholdSpec(low=25, high=45)
+    end: EndSpec = EndSpec()
+    blocks: Annotated[tuple[BlockSpec, ...], Field(min_length=1, max_length=12)]
+    payment: PaymentSpec = PaymentSpec()
+    source_text: str = Field(default="", exclude=True, repr=False)
+
+    @model_validator(mode="after")
+    def _consistent(self):
+        needs_level = [
+            b.name
+            for b in self.blocks
+            if set(b.all_treatments) & {"vague", "range", "exact", "risk"}
+        ]
+        if needs_level and self.threshold.rule == "none":
+            raise ValueError(
+                f"blocks {needs_level} tell participants about a danger level, but "
+                "threshold.rule is 'none'; allowed: 'fixed' or 'uniform'"
+            )
+        uses_range = any("range" in b.all_treatments for b in self.blocks)
+        if uses_range and self.threshold.range_shown is None:
+            raise ValueError(
+                "a 'range' block needs an interval to show: set threshold.shown_range "
+                "(or use threshold.rule 'uniform', whose low..high is shown)"
+            )
+        names = [b.name for b in self.blocks]
+        if len(set(names)) != len(names):
+            raise ValueError(f"block names must be unique, got {names}")
+        support = self.threshold.support
+        if support is not None:
+            top = support[1] + self.threshold.recovery_gap
+            if top >= self.resource.capacity:
+                raise ValueError(
+                    f"recovery level (threshold + recovery_gap, up to {top:g}) must stay below "
+                    f"resource.capacity {self.resource.capacity}, or a degraded stock never recovers"
+                )
+        return self
+
+    @property
+    def seats(self) -> int:
+        return self.groups.seats_per_group
+
+    @property
+    def total_rounds(self) -> int:
+        """Rounds in the whole session if every block runs to its length."""
+        return sum(block.rounds for block in self.blocks)
+
+    @property
+    def sha256(self) -> str:
+        return hashlib.sha256(self.source_text.encode("utf-8")).hexdigest()
+
+
+def _describe(error: dict) -> str:
+    key = ".".join(str(part) for part in error["loc"]) or "(top level)"
+    message = error["msg"].removeprefix("Value error, ")
+    if error["type"] == "extra_forbidden":
+        return f"{key}: unknown key (holds {error['input']!r}); check the spelling"
+    if error["type"] == "missing":
+        return f"{key}: required key is missing"
+    if error["type"] == "value_error":
+        return message if not error["loc"] else f"{key}: {message}"
+    return f"{key}: holds {error['input']!r}; allowed: {message}"
+
+
+def parse_study(text: str) -> Study:
+    """Validate study TOML text; raise ``StudyError`` listing every problem."""
+    try:
+        raw = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise StudyError([f"not valid TOML: {exc}"]) from exc
+    try:
+        study = Study.model_validate(raw)
+    except ValidationError as exc:
+        raise StudyError([_describe(e) for e in exc.errors()]) from exc
+    return study.model_copy(update={"source_text": text})
+
+
+def load_study(path: str | Path) -> Study:
+    """Read and validate a study file from disk."""
+    path = Path(path)
+    try:
+        text = path.read_text(encoding="utf-8")
+    except OSError as exc:
+        raise StudyError([f"cannot read {path}: {exc.strerror}"]) from exc
+    return parse_study(text)

@@ -1,0 +1,1 @@
+"""The shell around the game core: HTTP pages, sockets, storage and the CLI."""
