@@ -183,3 +183,26 @@ def test_health_reading_rejects_negative_stock():
 def test_health_reading_rejects_nonpositive_capacity():
     with pytest.raises(ValueError, match="capacity must be a positive number of units"):
         health_reading([10, 9], 0)
+
+
+def test_signal_view_carries_words_only_and_not_the_threshold():
+    from game_logic.rounds import resolve, start_block
+    from game_logic.seeding import round_rng
+    from game_logic.study import parse_study
+    from game_logic.treatments import participant_view
+
+    study = parse_study(
+        '[session]\nid = "fennick-signal"\ntitle = "Fennick (test)"\n'
+        "[groups]\ncount = 1\nseats_per_group = 2\n"
+        "[resource]\nmax_harvest = 15\n"
+        '[threshold]\nrule = "fixed"\nvalue = 41.5\n'
+        '[[blocks]]\nname = "signalled"\ntreatment = "signal"\nrounds = 6\n'
+    )
+    state = start_block(study, 3, 0, 0)
+    for r in range(1, 5):
+        state, _ = resolve(study, state, [15, 15], round_rng(3, 0, 0, r))
+    danger = participant_view(study, state, 0, None, 0.0)["danger"]
+    assert set(danger) == {"kind", "band", "trend", "reasons"}
+    assert danger["band"] == "alarm"
+    assert set(danger["reasons"]) <= {"low_stock", "falling_fast", "slow_recovery"}
+    assert all(isinstance(v, str) for v in [danger["band"], danger["trend"], *danger["reasons"]])
