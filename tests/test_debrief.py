@@ -197,3 +197,30 @@ def test_regrowth_lost_total_matches_sum():
     block = debrief_block(study, SEED, play(study, [GREEDY]))
     assert_allclose(block.total_regrowth_lost, sum(block.regrowth_lost), atol=0)
     assert block.rounds_degraded == len(block.regrowth_lost)
+
+
+def test_zero_cut_reproduces_every_pilot_group_exactly():
+    # The pilot shares resolve's generators (game_logic.pilot), so a zero-cut
+    # replay of each simulated group must land on the same stocks.
+    from game_logic.pilot import run_pilot
+
+    study = make_study(flip=0.6, treatment="risk", rounds=6)
+    run = run_pilot(study, 12, SEED, "conditional")
+    for g in range(12):
+        record = [o for o in run.outcomes if o.group == g]
+        debrief = debrief_group(study, SEED, record, less_by=(0,))
+        for block in debrief.blocks:
+            assert block.what_ifs[0].stock_path == block.stock_path
+            assert block.what_ifs[0].crossed_round == block.crossed_round
+
+
+def test_what_if_starts_from_carried_stock_and_regime():
+    second_block = 'treatment = "none"\nrounds = 4'
+    carried = STUDY_TOML.replace(second_block, second_block + "\nreset_stock = false")
+    study = parse_study(carried.format(flip=1.0, treatment="exact", rounds=4))
+    outcomes = play(study, [GREEDY[:4], [[1, 1]] * 4], blocks=2)
+    second = debrief_group(study, SEED, outcomes, less_by=(0,)).blocks[1]
+    assert second.started_degraded
+    assert second.stock_path[0] == outcomes[3].stock_after
+    assert second.what_ifs[0].stock_path == second.stock_path
+    assert len(second.regrowth_lost) == 4  # degraded from round 1 of the carried block
