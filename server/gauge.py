@@ -156,14 +156,17 @@ def _warning_sign(cx: float, top: float, size: float) -> str:
 
 
 def _caption(content: str) -> list[str]:
-    """Warning sign and a caption of up to two lines beside it (translations run long)."""
-    lines = textwrap.wrap(content, width=CAPTION_CHARS) or [""]
+    """Warning sign and a caption beside it: two lines, or three smaller ones (translations run long)."""
+    size, lines = 19, textwrap.wrap(content, width=CAPTION_CHARS) or [""]
     if len(lines) > 2:
-        lines = [lines[0], textwrap.shorten(" ".join(lines[1:]), width=CAPTION_CHARS, placeholder="...")]
-    first_baseline = 236 if len(lines) == 1 else 224
+        size, lines = 16, textwrap.wrap(content, width=int(CAPTION_CHARS * 19 / 16))
+        if len(lines) > 3:  # past three lines the text is cut visibly, never silently
+            lines = lines[:2] + [textwrap.shorten(" ".join(lines[2:]), width=int(CAPTION_CHARS * 19 / 16))]
+    step = size + 4
+    first_baseline = {1: 236, 2: 224, 3: 216}[len(lines)]
     parts = [_warning_sign(30, first_baseline - 22, 30)]
     for i, line in enumerate(lines):
-        parts.append(_text(54, first_baseline + 24 * i, line, size=19, weight="bold"))
+        parts.append(_text(54, first_baseline + step * i, line, size=size, weight="bold"))
     return parts
 
 
@@ -186,7 +189,7 @@ def _exact(danger: dict[str, Any], capacity: float, labels: dict[str, str], p: s
         f'<rect x="{BAR_X}" y="{BAR_Y}" width="{x - BAR_X:.1f}" height="{BAR_H}" fill="url(#{p}-hatch)"/>',
         f'<rect x="{x - 3:.1f}" y="{BAR_Y - 8}" width="6" height="{BAR_H + 16}" fill="{VERMILLION}" '
         f'stroke="{INK}" stroke-width="2"/>',
-        _text(lx, BAR_Y - 14, words, size=20, anchor=anchor, weight="bold"),
+        _text(lx, BAR_Y - 14, words, size=20, anchor=anchor, weight="bold", halo=True),
     ]
     if danger["kind"] == "risk":
         percent = _number(100 * float(danger["flip_probability"]))
@@ -198,16 +201,23 @@ def _range(danger: dict[str, Any], capacity: float, labels: dict[str, str], p: s
     low, high = float(danger["low"]), float(danger["high"])
     x0, x1 = _x(low, capacity), _x(high, capacity)
     low_text, high_text = _number(low), _number(high)
-    # Each end's number sits outside its edge, so the two can never overlap.
-    low_x, low_anchor = (x0 - 4, "end") if x0 - BAR_X > 40 else (x0 + 4, "start")
-    high_x, high_anchor = (x1 + 4, "start") if BAR_X + BAR_W - x1 > 40 else (x1 - 4, "end")
+    # Each end's number sits outside its edge, so the two never overlap; where
+    # an edge is too near the end of the bar, one "low – high" label is centred.
+    if x0 - BAR_X > 40 and BAR_X + BAR_W - x1 > 40:
+        end_labels = [
+            _text(x0 - 4, BAR_Y - 10, low_text, size=22, anchor="end", weight="bold", halo=True),
+            _text(x1 + 4, BAR_Y - 10, high_text, size=22, anchor="start", weight="bold", halo=True),
+        ]
+    else:
+        both = f"{low_text} \u2013 {high_text}"
+        x, anchor = _label_anchor((x0 + x1) / 2, both, 22)
+        end_labels = [_text(x, BAR_Y - 10, both, size=22, anchor=anchor, weight="bold", halo=True)]
     dash = f'stroke="{INK}" stroke-width="3" stroke-dasharray="7 4"'
     return [
         f'<rect x="{x0:.1f}" y="{BAR_Y}" width="{x1 - x0:.1f}" height="{BAR_H}" fill="url(#{p}-hatch)"/>',
         f'<line x1="{x0:.1f}" x2="{x0:.1f}" y1="{BAR_Y - 26}" y2="{BAR_Y + BAR_H + 4}" {dash}/>',
         f'<line x1="{x1:.1f}" x2="{x1:.1f}" y1="{BAR_Y - 26}" y2="{BAR_Y + BAR_H + 4}" {dash}/>',
-        _text(low_x, BAR_Y - 10, low_text, size=22, anchor=low_anchor, weight="bold"),
-        _text(high_x, BAR_Y - 10, high_text, size=22, anchor=high_anchor, weight="bold"),
+        *end_labels,
         *_caption(_say(labels, "danger_range", low=low_text, high=high_text)),
     ]
 
@@ -304,6 +314,9 @@ def stock_gauge_svg(
     of = _say(words, "stock_of", capacity=capacity_text, unit=unit).strip()
     title = _describe(stock_text, danger, words, of)
     fill_w = _x(stock, capacity) - BAR_X
+    # Shrink "of 2000 bundles of firewood" to fit beside the numeral (rough glyph widths).
+    room = WIDTH - 2 * BAR_X - 10 - 0.62 * 50 * len(stock_text)
+    of_size = int(max(13, min(22, room / (0.56 * max(len(of), 1)))))
     p = id_prefix
 
     parts = [
@@ -314,7 +327,7 @@ def stock_gauge_svg(
         f'<rect width="{WIDTH}" height="{HEIGHT}" fill="{PAPER}"/>',
         _text(BAR_X, 24, words["stock"], size=18),
         f'<text x="{BAR_X}" y="70" fill="{INK}"><tspan font-size="50" font-weight="bold">'
-        f'{escape(stock_text)}</tspan><tspan font-size="22" dx="10">{escape(of)}</tspan></text>',
+        f'{escape(stock_text)}</tspan><tspan font-size="{of_size}" dx="10">{escape(of)}</tspan></text>',
         f'<rect x="{BAR_X}" y="{BAR_Y}" width="{BAR_W}" height="{BAR_H}" fill="{PAPER}"/>',
         f'<rect x="{BAR_X}" y="{BAR_Y}" width="{fill_w:.1f}" height="{BAR_H}" fill="{BLUE}"/>',
     ]

@@ -160,3 +160,15 @@ def test_gauge_module_imports_only_the_standard_library():
     imported |= {node.module.split(".")[0] for node in ast.walk(tree)
                  if isinstance(node, ast.ImportFrom) and node.module}
     assert imported <= set(sys.stdlib_module_names) | {"__future__"}
+
+
+def test_narrow_range_at_the_edge_gets_one_joined_label():
+    svg = stock_gauge_svg({**view("range"), "danger": {"kind": "range", "low": 2, "high": 9}})
+    assert "2 \u2013 9" in words(svg)
+    assert numbers(svg) == {"62", "100", "0", "2", "9"}
+
+
+def test_long_translated_caption_wraps_without_losing_words():
+    long = "Si on passe en dessous : {percent} % de risque d'effondrement durable du stock"
+    text = words(stock_gauge_svg(view("risk"), labels={"chance": long}))
+    assert "effondrement durable du stock" in text
