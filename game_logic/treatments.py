@@ -10,7 +10,7 @@ from __future__ import annotations
 
 from typing import Any
 
-from .early_warning import health_signal
+from .early_warning import health_reading
 from .rounds import GroupState, RoundOutcome
 from .study import Study
 
@@ -33,8 +33,10 @@ def danger_info(study: Study, state: GroupState) -> dict[str, Any]:
             "level": round(state.threshold, 1),
             "flip_probability": study.threshold.flip_probability,
         }
-    signal = health_signal(state.stock_path, study.resource.capacity)
-    return {"kind": "signal", "band": signal.band, "trend": signal.trend}
+    # Words only: the reading's score and parts stay on the server (console, analysis).
+    reading = health_reading(state.stock_path, study.resource.capacity)
+    return {"kind": "signal", "band": reading.band, "trend": reading.trend,
+            "reasons": list(reading.reasons)}
 
 
 def last_round_info(study: Study, outcome: RoundOutcome, seat: int) -> dict[str, Any]:
