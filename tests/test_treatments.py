@@ -42,7 +42,10 @@ def test_each_treatment_says_what_it_promises(treatment, expected):
 
 def test_signal_shows_band_and_trend_only():
     view, _ = _view_after_one_round("signal")
-    assert set(view["danger"]) == {"kind", "band", "trend"}
+    danger = view["danger"]
+    assert set(danger) == {"kind", "band", "trend", "reasons"}
+    # Words only: no number that could reveal the threshold.
+    assert all(isinstance(v, str) for v in (danger["band"], danger["trend"], *danger["reasons"]))
 
 
 def test_others_harvests_shown_only_with_show_others():
