@@ -22,7 +22,6 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 import statsmodels.formula.api as smf
-from patsy import dmatrix
 
 from .group_outcomes import group_key
 
@@ -70,7 +69,7 @@ def _terms(panel: pd.DataFrame) -> tuple[list[str], list[str]]:
     chosen = []
     for term in optional:
         trial = chosen + [term] + base
-        matrix = np.asarray(dmatrix(" + ".join(trial), panel))
+        matrix = smf.ols("harvest ~ " + " + ".join(trial), panel).exog
         if np.linalg.matrix_rank(matrix) == matrix.shape[1]:
             chosen.append(term)
         else:
