@@ -6,12 +6,15 @@ did against these numbers.
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numpy as np
+from numpy.typing import NDArray
 from scipy.optimize import brentq, minimize_scalar
 
-from .resource import growth
+from .resource import growth, next_regime, regrow
+from .rounds import advance
 from .study import GrowthSpec, Study
 
 
@@ -101,3 +104,192 @@ def gordon_schaefer_open_access(
     stock = cost_per_effort / (price * catchability)
     effort = max(0.0, r * (1.0 - stock / capacity) / catchability)
     return OpenAccess(stock=stock, effort=effort, harvest=catchability * effort * stock)
+
+
+# --- Group benchmarks over a whole block: social optimum and selfish play -------------
+
+
+@dataclass(frozen=True)
+class ThresholdBelief:
+    """What a planner knows about the threshold: representative values and their weights.
+
+    ``values`` holds NaN alone when the design has no threshold. Weights sum to one.
+    """
+
+    values: tuple[float, ...]
+    weights: tuple[float, ...]
+
+
+def threshold_belief(study: Study) -> ThresholdBelief:
+    """The study's threshold distribution, reduced to classes that act alike.
+
+    The model compares whole-unit remainders R with T (``R < T`` flips) and with
+    T + gap (``R > T + gap`` recovers), so the dynamics change only where T or
+    T + gap crosses a whole number. A uniform T therefore falls into finitely
+    many classes; each class is represented by its midpoint and weighted by its
+    length. The expectation over the uniform threshold is then exact, not a
+    quadrature approximation.
+    """
+    spec = study.threshold
+    if spec.rule == "none":
+        return ThresholdBelief((float("nan"),), (1.0,))
+    if spec.rule == "fixed":
+        return ThresholdBelief((float(spec.value),), (1.0,))
+    low, high, gap = float(spec.low), float(spec.high), float(spec.recovery_gap)
+    whole = np.arange(np.floor(low), np.ceil(high + gap) + 1)
+    cuts = np.concatenate([whole, whole - gap])
+    edges = np.unique(np.concatenate([[low, high], cuts[(cuts > low) & (cuts < high)]]))
+    lengths = np.diff(edges)
+    return ThresholdBelief(
+        tuple(float(v) for v in (edges[:-1] + edges[1:]) / 2),
+        tuple(float(w) for w in lengths / (high - low)),
+    )
+
+
+@dataclass(frozen=True)
+class HarvestPolicy:
+    """A group harvest policy from dynamic programming, and its expected value.
+
+    ``harvest[t, d, s]`` is the group harvest (whole units) in round ``t + 1`` of
+    the block at stock ``s`` in regime ``d`` (0 good, 1 degraded); ``value[d, s]``
+    is the expected (discounted) total the group takes over the block when it
+    starts there and follows the policy.
+    """
+
+    harvest: NDArray[np.int64]
+    value: NDArray[np.float64]
+    belief: ThresholdBelief
+    discount: float
+
+    @property
+    def rounds(self) -> int:
+        return int(self.harvest.shape[0])
+
+    def value_at(self, stock: int, degraded: bool = False) -> float:
+        return float(self.value[int(degraded), int(stock)])
+
+    def harvest_at(self, round_number: int, stock: int, degraded: bool = False) -> int:
+        """Group harvest in 1-based ``round_number`` of the block."""
+        return int(self.harvest[round_number - 1, int(degraded), int(stock)])
+
+
+def optimal_group_policy(
+    study: Study,
+    rounds: int,
+    discount: float = 1.0,
+    continuation: Sequence[float] | None = None,
+    belief: ThresholdBelief | None = None,
+) -> HarvestPolicy:
+    """The group's social optimum by backward induction over (stock, regime).
+
+    Value is the total number of units the group takes (linear payoff), each
+    later round weighted by ``discount`` per round. State: whole-unit stock
+    0..K and regime; action: a group harvest 0..seats * max_harvest (how it is
+    split among seats does not matter to the group). Transitions are the
+    model's own: ``resource.next_regime`` (flip with the study's probability,
+    recovery above T + gap) and ``resource.regrow``; rationing never binds
+    because the planner never asks for more than the stock.
+
+    Approximation (stated, not hidden): when the threshold is uncertain the
+    planner knows only its distribution and does not learn from the path. One
+    policy is chosen for all threshold classes, each round maximising the
+    prior-weighted expected value of continuing with that same policy. With a
+    fixed threshold, or none, the policy is the exact optimum.
+
+    Parameters
+    ----------
+    rounds : block length in rounds (the planner knows it).
+    discount : per-round weight of the future, 0 < discount <= 1.
+    continuation : optional probability, for each round t = 1..rounds - 1, that
+        round t + 1 is played once round t was (random stopping).
+    belief : threshold classes and weights; default ``threshold_belief(study)``.
+    """
+    if rounds < 1:
+        raise ValueError(f"rounds must be at least 1, got {rounds}")
+    if not 0 < discount <= 1:
+        raise ValueError(f"discount must lie in (0, 1], got {discount}")
+    survive = np.ones(rounds) if continuation is None else np.append(np.asarray(continuation, float), 1.0)
+    if survive.size != rounds or np.any((survive < 0) | (survive > 1)):
+        raise ValueError(f"continuation needs {rounds - 1} probabilities in [0, 1]")
+    res, thr = study.resource, study.threshold
+    belief = threshold_belief(study) if belief is None else belief
+    capacity, cap = res.capacity, study.seats * res.max_harvest
+    levels = np.arange(capacity + 1)
+    thresholds = np.asarray(belief.values, float)[:, None, None]
+    weights = np.asarray(belief.weights, float)
+    was_degraded = np.array([False, True])[None, :, None]
+    # Two outcomes of the flip draw: 0.0 flips whenever the rule allows, 1.0 never does.
+    next_regime_of, next_stock_of, chance = [], [], []
+    for draw, p in ((0.0, thr.flip_probability), (1.0, 1.0 - thr.flip_probability)):
+        degraded_after, _, _ = next_regime(
+            was_degraded, levels[None, None, :], thresholds, thr.recovery_gap, thr.flip_probability, draw
+        )
+        degraded_after = np.broadcast_to(degraded_after, (weights.size, 2, levels.size))
+        next_regime_of.append(degraded_after.astype(np.int64))
+        next_stock_of.append(
+            regrow(np.broadcast_to(levels, degraded_after.shape), degraded_after, res.growth,
+                   capacity, res.degraded_growth_factor)
+        )
+        chance.append(p)
+    classes = np.arange(weights.size)[:, None, None]
+    regimes = np.arange(2)[None, :, None]
+    # Candidate remainders R = s - h for every stock s and harvest h; beyond the stock is barred.
+    harvests = np.arange(cap + 1)
+    remainder = levels[:, None] - harvests[None, :]
+    # Immediate take plus a bar (-inf) on harvests beyond the stock, computed once.
+    immediate = np.where(remainder >= 0, harvests[None, :], -np.inf)
+    remainder = np.maximum(remainder, 0)
+    value = np.zeros((weights.size, 2, levels.size))
+    policy = np.zeros((rounds, 2, levels.size), dtype=np.int64)
+    for t in range(rounds - 1, -1, -1):
+        weight = discount * survive[t] if t < rounds - 1 else 0.0
+        outcomes = zip(next_regime_of, next_stock_of, chance, strict=True)
+        future = weight * sum(p * value[classes, nd, ns] for nd, ns, p in outcomes if p > 0)
+        expected = np.tensordot(weights, future, axes=1)  # (2, K+1), over the planner's belief
+        score = expected[:, remainder]
+        score += immediate
+        # A hair's penalty per unit makes ties (common with integer stocks) go to the smaller harvest.
+        score -= 1e-9 * harvests
+        take = np.argmax(score, axis=2)
+        policy[t] = take
+        kept = levels[None, :] - take
+        value = take[None] + future[classes, regimes, kept[None]]
+    return HarvestPolicy(policy, np.tensordot(weights, value, axes=1), belief, discount)
+
+
+def selfish_group_take(
+    study: Study,
+    rounds: int,
+    rng: np.random.Generator,
+    stock: int | None = None,
+    degraded: bool = False,
+    replicates: int = 2000,
+) -> float:
+    """Expected total a group takes when every seat asks the maximum every round.
+
+    Simulated through ``rounds.advance`` for ``rounds`` rounds from ``stock``
+    (default the initial stock), thresholds drawn from the study's rule and
+    flips from ``rng``; the mean over ``replicates`` groups is returned. The
+    end rule is not applied: the caller gives the number of rounds played.
+    """
+    if rounds < 1 or replicates < 1:
+        raise ValueError(f"rounds and replicates must be at least 1, got {rounds} and {replicates}")
+    spec = study.threshold
+    start = study.resource.initial_stock if stock is None else stock
+    current = np.full(replicates, start, dtype=np.int64)
+    regime = np.full(replicates, degraded)
+    if spec.rule == "uniform":
+        threshold = rng.uniform(spec.low, spec.high, replicates)
+    else:
+        threshold = np.full(replicates, np.nan if spec.rule == "none" else float(spec.value))
+    asked = np.full((replicates, study.seats), study.resource.max_harvest, dtype=np.int64)
+    total = np.zeros(replicates)
+    block = 0
+    for k in range(1, rounds + 1):
+        step = advance(
+            study, block, np.full(replicates, k), current, regime, threshold, asked,
+            rng.random(replicates), np.zeros(replicates),
+        )
+        total += step.taken.sum(axis=1)
+        current, regime = step.stock_after, step.degraded_after
+    return float(total.mean())

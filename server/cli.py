@@ -77,5 +77,46 @@ def pilot(study_file: str, groups: int, seed: int, strategy: str, out_dir: str) 
     click.echo(f"wrote {out_dir}/decisions.csv, rounds.csv, seats.csv, datapackage.json")
 
 
+@main.command()
+@click.argument("folders", nargs=-1, required=True, type=click.Path())
+@click.option("--out", "out_dir", type=click.Path(file_okay=False), required=True,
+              help="Folder for the pooled decisions.csv, rounds.csv, seats.csv and datapackage.json.")
+@click.option("--stata", is_flag=True, help="Also write each table as a Stata .dta file.")
+def pool(folders: tuple[str, ...], out_dir: str, stata: bool) -> None:
+    """Merge the export folders FOLDERS of many sessions into one pooled folder."""
+    from analysis.pool import pool_exports
+    from game_logic.errors import EbbtideError
+
+    try:
+        result = pool_exports(folders, out_dir, stata=stata)
+    except EbbtideError as exc:
+        click.echo(f"pool refused, nothing written: {exc}", err=True)
+        sys.exit(2)
+    for note in result.notes:
+        click.echo(f"note: {note}")
+    click.echo(f"pooled {len(result.session_ids)} session(s) into {result.out}"
+               + (" (with Stata .dta files)" if stata else ""))
+
+
+@main.command()
+@click.argument("folder", type=click.Path())
+@click.option("--out", "out_file", type=click.Path(dir_okay=False), required=True,
+              help="The HTML report to write; its tables go next to it as CSV files.")
+@click.option("--seed", type=click.IntRange(0, 2**63 - 1), default=1, show_default=True,
+              help="Seed of the resampling (bootstrap, permutation test, selfish benchmark).")
+def report(folder: str, out_file: str, seed: int) -> None:
+    """Write a self-contained HTML analysis report of the export FOLDER."""
+    from analysis.report import write_report
+
+    from game_logic.errors import EbbtideError
+
+    try:
+        written = write_report(folder, out_file, seed=seed)
+    except EbbtideError as exc:
+        click.echo(f"report not written: {exc}", err=True)
+        sys.exit(2)
+    click.echo(f"wrote {written.html} and {len(written.tables)} table(s) as CSV next to it")
+
+
 if __name__ == "__main__":
     main()

@@ -1,0 +1,11 @@
+"""Named exceptions of the analysis; the CLI turns them into clear messages."""
+
+from game_logic.errors import EbbtideError
+
+
+class ExportFolderError(EbbtideError):
+    """An export folder is missing a file or does not follow the export contract."""
+
+
+class PoolError(EbbtideError):
+    """Export folders cannot be pooled (different schemas or clashing sessions)."""

@@ -1,0 +1,177 @@
+"""Pool the export folders of many sessions into one folder with the same contract.
+
+Every check runs before anything is written, so a refused pool changes nothing.
+Rows are copied as text, byte for byte, so pooling never reformats a number.
+"""
+
+from __future__ import annotations
+
+import csv
+import hashlib
+import json
+from collections.abc import Sequence
+from dataclasses import dataclass
+from pathlib import Path
+
+from exports.schema import CONTRACT
+
+from .errors import PoolError
+from .exports_reader import TABLES, read_export, read_package
+
+
+@dataclass(frozen=True)
+class PoolResult:
+    """What a pool wrote: its folder, the sessions it holds and notes on skipped folders."""
+
+    out: Path
+    session_ids: tuple[str, ...]
+    notes: tuple[str, ...]
+
+
+@dataclass(frozen=True)
+class _Folder:
+    path: Path
+    package: dict
+    headers: dict[str, list[str]]
+    fingerprint: str
+
+
+def _inspect(path: Path) -> _Folder:
+    package = read_package(path)
+    if package["ebbtide"].get("pooled"):
+        raise PoolError(f"{path}: is already a pooled folder; pool the sessions' own export folders instead")
+    headers, digest = {}, hashlib.sha256()
+    for name in TABLES:
+        table = path / f"{name}.csv"
+        if not table.is_file():
+            raise PoolError(f"{path}: {name}.csv is missing; an export holds {', '.join(TABLES)}")
+        data = table.read_bytes()
+        digest.update(name.encode() + b"\0" + data + b"\0")
+        first_line = data.decode("utf-8").splitlines()[:1]
+        headers[name] = next(csv.reader(first_line)) if first_line else []
+    digest.update(package["ebbtide"].get("study_sha256", "").encode())
+    return _Folder(path, package, headers, digest.hexdigest())
+
+
+def _column_difference(name: str, mine: list[str], theirs: list[str]) -> str:
+    missing = [c for c in theirs if c not in mine]
+    extra = [c for c in mine if c not in theirs]
+    if not missing and not extra:
+        return f"{name}.csv has the same columns in a different order"
+    parts = ([f"missing {missing}"] if missing else []) + ([f"extra {extra}"] if extra else [])
+    return f"{name}.csv has {' and '.join(parts)}"
+
+
+def _check_same_schema(reference: _Folder, other: _Folder) -> None:
+    version = other.package["ebbtide"]["format_version"]
+    expected = reference.package["ebbtide"]["format_version"]
+    if str(version) != str(expected):
+        raise PoolError(
+            f"{other.path}: format_version is {version!r} but {reference.path} has {expected!r}; "
+            "only exports of the same format version can be pooled"
+        )
+    for name in TABLES:
+        if other.headers[name] != reference.headers[name]:
+            difference = _column_difference(name, other.headers[name], reference.headers[name])
+            raise PoolError(f"{other.path}: {difference} compared with {reference.path}; columns must match")
+
+
+def _rows(path: Path) -> list[str]:
+    """Data lines of a CSV file without its header (ids and numbers kept as written)."""
+    lines = path.read_text(encoding="utf-8").splitlines(keepends=True)
+    return [line if line.endswith("\n") else line + "\n" for line in lines[1:]]
+
+
+def pool_exports(folders: Sequence[str | Path], out: str | Path, stata: bool = False) -> PoolResult:
+    """Merge session export folders into ``out`` (tables, descriptor, optional Stata files).
+
+    Refuses (``PoolError``, nothing written) folders whose columns or
+    ``format_version`` differ from the first folder's, and two folders with the
+    same session id but different content. An identical duplicate is skipped
+    with a note.
+    """
+    if not folders:
+        raise PoolError("give at least one export folder to pool")
+    out = Path(out)
+    kept: dict[str, _Folder] = {}
+    notes: list[str] = []
+    for raw in folders:
+        folder = _inspect(Path(raw))
+        if folder.path.resolve() == out.resolve():
+            raise PoolError(f"{out}: the output folder is also an input; choose a new folder for --out")
+        if kept:
+            _check_same_schema(next(iter(kept.values())), folder)
+        session_id = str(folder.package["ebbtide"]["session_id"])
+        if session_id in kept:
+            earlier = kept[session_id]
+            if earlier.fingerprint == folder.fingerprint:
+                notes.append(f"{folder.path}: same content as {earlier.path} (session {session_id}); skipped")
+                continue
+            raise PoolError(
+                f"{folder.path}: carries session {session_id}, as does {earlier.path}, but with different "
+                "content; session ids must be unique across the pool"
+            )
+        kept[session_id] = folder
+    reference = next(iter(kept.values()))
+    # Session ids inside the tables must match the descriptors, or the pool would mix sessions up.
+    for session_id, folder in kept.items():
+        ids = set(read_export(folder.path).rounds["session_id"])
+        if ids - {session_id}:
+            raise PoolError(
+                f"{folder.path}: rounds.csv holds session ids {sorted(ids)} but its datapackage.json "
+                f"says {session_id!r}"
+            )
+    out.mkdir(parents=True, exist_ok=True)
+    for name in TABLES:
+        with (out / f"{name}.csv").open("w", encoding="utf-8", newline="") as handle:
+            handle.write(",".join(reference.headers[name]) + "\n")
+            for folder in kept.values():
+                handle.writelines(_rows(folder.path / f"{name}.csv"))
+    package = _pooled_descriptor(reference.package, kept)
+    (out / "datapackage.json").write_text(json.dumps(package, indent=2, ensure_ascii=False) + "\n",
+                                          encoding="utf-8")
+    if stata:
+        write_stata(out)
+    return PoolResult(out, tuple(kept), tuple(notes))
+
+
+def _pooled_descriptor(reference: dict, kept: dict[str, _Folder]) -> dict:
+    sessions = []
+    for session_id, folder in kept.items():
+        meta = folder.package["ebbtide"]
+        sessions.append({
+            "session_id": session_id,
+            "title": folder.package.get("title", ""),
+            "source": meta.get("source", ""),
+            "seed": meta.get("seed"),
+            "study_sha256": meta.get("study_sha256", ""),
+            "study": meta.get("study", ""),
+        })
+    return {
+        "profile": "tabular-data-package",
+        "name": "ebbtide-pool",
+        "title": f"Pooled Ebbtide sessions ({len(sessions)})",
+        "resources": reference["resources"],
+        "ebbtide": {
+            "format_version": reference["ebbtide"]["format_version"],
+            "pooled": True,
+            "sessions": sessions,
+        },
+    }
+
+
+def write_stata(folder: str | Path) -> list[Path]:
+    """Write each contract table as a Stata 118 ``.dta`` file with variable labels."""
+    folder = Path(folder)
+    data = read_export(folder)
+    written = []
+    for name in TABLES:
+        table = getattr(data, name).copy()
+        for column in table.columns:
+            if table[column].dtype == bool:
+                table[column] = table[column].astype("int8")  # Stata has no boolean type
+        labels = {c.name: c.description[:80] for c in CONTRACT[name] if c.name in table.columns}
+        path = folder / f"{name}.dta"
+        table.to_stata(path, write_index=False, version=118, variable_labels=labels)
+        written.append(path)
+    return written

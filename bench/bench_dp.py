@@ -1,0 +1,63 @@
+"""Time the social-optimum dynamic programme on a 1,000-level stock grid over 30 rounds.
+
+Run from the repository root:  python -m bench.bench_dp
+Figures go to docs/benchmarks-analysis.md (never into timed unit tests).
+"""
+
+from __future__ import annotations
+
+import statistics
+import time
+
+from game_logic.benchmarks import optimal_group_policy, threshold_belief
+from game_logic.study import parse_study
+
+# An invented stock of 1,000 units; only the grid size matters for the timing.
+STUDY = """
+[session]
+id = "bench-grid"
+title = "Benchmark grid (invented)"
+[groups]
+count = 1
+seats_per_group = {seats}
+[resource]
+capacity = 1000
+initial_stock = 800
+max_harvest = {cap}
+[threshold]
+rule = "{rule}"
+{threshold}
+recovery_gap = {gap}
+flip_probability = 0.7
+[[blocks]]
+name = "season"
+rounds = 30
+"""
+
+CASES = {
+    "no threshold, group max 100": dict(seats=10, cap=10, rule="none", threshold="", gap=15),
+    "fixed threshold, group max 100": dict(seats=10, cap=10, rule="fixed", threshold="value = 300", gap=150),
+    "uniform 250..450 (200 classes), group max 100": dict(
+        seats=10, cap=10, rule="uniform", threshold="low = 250\nhigh = 450", gap=150
+    ),
+    "fixed threshold, group max 1,000": dict(
+        seats=10, cap=100, rule="fixed", threshold="value = 300", gap=150
+    ),
+}
+
+
+def main(repeats: int = 7) -> None:
+    for label, fields in CASES.items():
+        study = parse_study(STUDY.format(**fields))
+        classes = len(threshold_belief(study).values)
+        times = []
+        for _ in range(repeats):
+            start = time.perf_counter()
+            optimal_group_policy(study, rounds=30)
+            times.append(time.perf_counter() - start)
+        print(f"{label:48s} classes={classes:4d}  median {statistics.median(times):.3f} s"
+              f"  min {min(times):.3f} s  ({repeats} runs)")
+
+
+if __name__ == "__main__":
+    main()
