@@ -107,7 +107,6 @@ def pool(folders: tuple[str, ...], out_dir: str, stata: bool) -> None:
 def report(folder: str, out_file: str, seed: int) -> None:
     """Write a self-contained HTML analysis report of the export FOLDER."""
     from analysis.report import write_report
-
     from game_logic.errors import EbbtideError
 
     try:
