@@ -11,13 +11,22 @@ import logging
 from collections.abc import Callable
 
 from flask import Flask
-from werkzeug.serving import BaseWSGIServer, make_server
+from werkzeug.serving import BaseWSGIServer, WSGIRequestHandler, make_server
+
+
+class _RequestHandler(WSGIRequestHandler):
+    """Closes a connection once its websocket ends, instead of reading its last frames as HTTP."""
+
+    def run_wsgi(self) -> None:
+        super().run_wsgi()
+        if self.headers.get("Upgrade", "").lower() == "websocket":
+            self.close_connection = True
 
 
 def build_server(app: Flask, host: str, port: int) -> BaseWSGIServer:
     """Bind (one thread per connection) without serving yet."""
     logging.getLogger("werkzeug").setLevel(logging.WARNING)
-    return make_server(host, port, app, threaded=True)
+    return make_server(host, port, app, threaded=True, request_handler=_RequestHandler)
 
 
 def serve(app: Flask, host: str, port: int, announce: Callable[[int], None]) -> None:

@@ -136,7 +136,10 @@ def on_connect(auth=None):
     try:
         phone = PhoneAuth.model_validate(auth if auth is not None else {})
     except ValidationError as exc:
-        raise ConnectionRefusedError("a seat secret is needed: open the link on your seat card") from exc
+        problem = from_validation_error(exc).message
+        raise ConnectionRefusedError(
+            f"a seat secret and a device id are needed ({problem}); open the link on your seat card"
+        ) from exc
     found = reg.seat_by_secret(phone.secret)
     if found is None:
         raise ConnectionRefusedError("this seat card does not belong to the session being played")
