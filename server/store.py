@@ -85,6 +85,12 @@ class Store:
         with self._lock:
             self.db.close()
 
+    def __enter__(self) -> Store:
+        return self
+
+    def __exit__(self, *exc_info) -> None:
+        self.close()
+
     def _create_tables(self) -> None:
         with self._lock:
             self.db["sessions"].create(

@@ -2,7 +2,13 @@
 
 from __future__ import annotations
 
+import functools
 import json
+import queue
+import re
+import signal
+import subprocess
+import sys
 import threading
 import time
 from dataclasses import dataclass, field
@@ -162,3 +168,48 @@ def start_server(tmp_path):
         server.server_close()
         thread.join(timeout=5)
         app.extensions["ebbtide"].store.close()
+
+
+def _answers(url: str) -> bool:
+    return requests.get(url, timeout=2).ok
+
+
+class ServeProcess:
+    """`python -m server.cli serve` on 127.0.0.1 with a port the OS picks; bounded waits."""
+
+    def __init__(self, *args: str):
+        self.proc = subprocess.Popen(
+            [sys.executable, "-m", "server.cli", *args, "--host", "127.0.0.1", "--port", "0"],
+            cwd=ROOT, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True,
+        )
+        self.lines: queue.Queue[str] = queue.Queue()
+        threading.Thread(target=self._pump, daemon=True).start()
+        self.printed = []
+        self.url = self._wait_for_address()
+
+    def _pump(self) -> None:
+        for line in self.proc.stdout:
+            self.lines.put(line)
+
+    def _wait_for_address(self) -> str:
+        url = None
+        for _ in range(50):
+            try:
+                line = self.lines.get(timeout=30)
+            except queue.Empty:
+                break
+            self.printed.append(line)
+            found = re.search(r"console:\s+(http://[\d.]+:\d+)/console", line)
+            url = found.group(1) if found else url
+            if url and line.startswith("Stop with"):
+                wait_until(functools.partial(_answers, f"{url}/healthz"), "the server to answer")
+                return url
+        self.kill()
+        raise AssertionError(f"serve printed no address: {self.printed} {self.proc.stderr.read()}")
+
+    def kill(self) -> None:
+        """Stop the way a crash or a pulled plug would: no clean shutdown."""
+        self.proc.send_signal(signal.SIGKILL)
+        self.proc.wait(timeout=10)
+        self.proc.stdout.close()
+        self.proc.stderr.close()
