@@ -113,7 +113,9 @@
         r.remaining, r.stock_after + (r.end_reason ? " (" + S.ended_by + ": " + r.end_reason + ")" : ""),
         r.hidden.crossed ? S.yes : S.no, r.hidden.flip_draw], false));
     });
-    card.appendChild(results);
+    var wrap = el("div", null, "table-wrap");
+    wrap.appendChild(results);
+    card.appendChild(wrap);
     card.appendChild(el("p", "* " + S.hidden, "quiet"));
     return card;
   }

@@ -213,3 +213,34 @@ class ServeProcess:
         self.proc.wait(timeout=10)
         self.proc.stdout.close()
         self.proc.stderr.close()
+
+
+CHROMIUM = Path("/usr/bin/chromium")
+CHROMIUM_ARGS = [
+    "--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
+    "--disable-background-networking", "--disable-component-update", "--disable-sync",
+]
+ARTIFACTS = ROOT / "test-artifacts"
+
+
+@pytest.fixture(scope="session")
+def browser():
+    """Debian's headless Chromium through Playwright; never downloads a browser."""
+    if not CHROMIUM.exists():
+        pytest.fail(f"browser tests need Debian's chromium at {CHROMIUM}: run 'apt-get install chromium' "
+                    "(scripts/test.sh does it)")
+    from playwright.sync_api import sync_playwright
+
+    with sync_playwright() as playwright:
+        chromium = playwright.chromium.launch(executable_path=str(CHROMIUM), args=CHROMIUM_ARGS)
+        yield chromium
+        chromium.close()
+
+
+@pytest.fixture
+def phone_page(browser):
+    """A fresh browser context at a small phone's size (360 x 740 CSS pixels)."""
+    context = browser.new_context(viewport={"width": 360, "height": 740}, device_scale_factor=2,
+                                  is_mobile=True, has_touch=True)
+    yield context
+    context.close()
