@@ -37,7 +37,8 @@ SEATS = 4
 
 def study_text(groups: int) -> str:
     text = (ROOT / "examples" / "brackwater-demo.toml").read_text(encoding="utf-8")
-    text = text.replace("count = 2", f"count = {groups}").replace("seats_per_group = 2", f"seats_per_group = {SEATS}")
+    text = text.replace("count = 2", f"count = {groups}")
+    text = text.replace("seats_per_group = 2", f"seats_per_group = {SEATS}")
     return text.replace("max_harvest = 15", "max_harvest = 5")
 
 
@@ -110,8 +111,9 @@ def run(url: str, db: Path, groups: int, args) -> None:
 
     def submit(seat_key, round_number):
         started = time.perf_counter()
-        ack = clients[seat_key].call("harvest", {"decision_id": f"bench-{seat_key[0]}-{seat_key[1]}-{round_number}",
-                                                 "block": 1, "round": round_number, "harvest": 2}, timeout=30)
+        decision = {"decision_id": f"bench-{seat_key[0]}-{seat_key[1]}-{round_number}",
+                    "block": 1, "round": round_number, "harvest": 2}
+        ack = clients[seat_key].call("harvest", decision, timeout=30)
         took = time.perf_counter() - started
         assert ack["ok"], ack
         with lock:
@@ -123,14 +125,17 @@ def run(url: str, db: Path, groups: int, args) -> None:
             list(pool.map(lambda key, r=r: submit(key, r), clients))
             deadline = time.monotonic() + 30
             while time.monotonic() < deadline:
-                if all(s and s[-1]["view"].get("last_round", {}).get("round") == r for s in snapshots.values()):
+                seen = [s[-1]["view"].get("last_round", {}).get("round") if s else None
+                        for s in snapshots.values()]
+                if all(n == r for n in seen):
                     break
                 time.sleep(0.002)
             round_times.append(time.perf_counter() - started)
     for client in [*clients.values(), console]:
         client.disconnect()
     q = statistics.quantiles(latencies, n=20)
-    print(f"{len(clients)} phones ({groups} groups of {SEATS}), transport {args.transport}, {args.rounds} rounds")
+    print(f"{len(clients)} phones ({groups} groups of {SEATS}), transport {args.transport}, "
+          f"{args.rounds} rounds")
     print(f"connect all phones: {connect_s:.2f} s")
     print(f"ack latency: p50 {statistics.median(latencies) * 1000:.1f} ms, p95 {q[18] * 1000:.1f} ms, "
           f"max {max(latencies) * 1000:.1f} ms ({len(latencies)} decisions)")
