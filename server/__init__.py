@@ -1,1 +1,79 @@
 """The shell around the game core: HTTP pages, sockets, storage and the CLI."""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Any
+
+from flask import Flask, request
+from flask_babel import Babel, get_locale
+from flask_socketio import SocketIO
+
+ROOT = Path(__file__).resolve().parent.parent
+# Measured in bench/server_phones.py (docs/benchmarks-server.md): threads with
+# simple-websocket serve 40 phones on loopback with room to spare, and need no
+# monkey-patching or extra server.
+ASYNC_MODE = "threading"
+MAX_MESSAGE_BYTES = 16_384  # no legitimate message comes near; a flood is cut at the edge
+
+socketio = SocketIO()
+
+
+def create_app(config: dict[str, Any] | None = None) -> Flask:
+    """Build the app for one database; opens (or creates, or resumes) the session to serve.
+
+    Config keys: ``EBBTIDE_DB`` (path, required), ``EBBTIDE_STUDY`` (a ``Study`` to
+    serve: resumes its latest unfinished session, else creates one),
+    ``EBBTIDE_SEED``, ``EBBTIDE_PIN``, ``EBBTIDE_PUBLIC_URL`` (the address printed on
+    seat cards; defaults to the address the console was opened at).
+    """
+    from . import sockets, web  # noqa: F401 - sockets registers its handlers on import
+    from .live import Registry
+    from .store import Store
+
+    app = Flask(
+        __name__,
+        template_folder=str(ROOT / "templates"),
+        static_folder=str(ROOT / "static"),
+    )
+    app.config.update(
+        EBBTIDE_PUBLIC_URL=None,
+        BABEL_TRANSLATION_DIRECTORIES=str(ROOT / "translations"),
+        SESSION_COOKIE_SAMESITE="Strict",
+        SESSION_COOKIE_HTTPONLY=True,
+        MAX_CONTENT_LENGTH=MAX_MESSAGE_BYTES,
+    )
+    app.config.update(config or {})
+    store = Store(app.config["EBBTIDE_DB"])
+    registry = Registry(store)
+    app.extensions["ebbtide"] = registry
+    study = app.config.get("EBBTIDE_STUDY")
+    if study is not None:
+        live, pin = registry.start_or_resume(
+            study, app.config.get("EBBTIDE_SEED"), app.config.get("EBBTIDE_PIN")
+        )
+        app.config["EBBTIDE_PIN"] = pin
+        app.config["EBBTIDE_SESSION_ID"] = live.session_id
+        # The session's own key: console cookies stay valid when the server restarts.
+        app.secret_key = live.record.secret_key
+
+    def select_locale() -> str | None:
+        if registry.current_id is None:
+            return "en"
+        session_spec = registry.current.study.session
+        for candidate in (request.args.get("lang"), request.cookies.get("lang")):
+            if candidate in session_spec.languages:
+                return candidate
+        return session_spec.language
+
+    Babel(app, locale_selector=select_locale)
+    app.jinja_env.globals["get_locale"] = get_locale
+    app.register_blueprint(web.bp)
+    socketio.init_app(
+        app,
+        async_mode=ASYNC_MODE,
+        max_http_buffer_size=MAX_MESSAGE_BYTES,
+        ping_interval=10,
+        ping_timeout=20,
+    )
+    return app

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import sys
+from collections.abc import Callable
 from pathlib import Path
 
 import click
@@ -115,6 +116,104 @@ def report(folder: str, out_file: str, seed: int) -> None:
         click.echo(f"report not written: {exc}", err=True)
         sys.exit(2)
     click.echo(f"wrote {written.html} and {len(written.tables)} table(s) as CSV next to it")
+
+
+def _announce(app, host: str, db_path: Path, created: bool) -> Callable[[int], None]:
+    from server.netaddr import reachable_host
+
+    def announce(port: int) -> None:
+        base = f"http://{reachable_host(host)}:{port}"
+        app.config["EBBTIDE_PUBLIC_URL"] = base
+        pin = app.config.get("EBBTIDE_PIN")
+        state = "new session" if created else "resumed session"
+        click.echo(f"Ebbtide: {state} {app.config['EBBTIDE_SESSION_ID']}")
+        click.echo(f"  console:        {base}/console")
+        kept = "unchanged (set when the session was created)"
+        click.echo(f"  console PIN:    {pin or kept}")
+        click.echo(f"  seat cards:     {base}/console/cards")
+        click.echo(f"  phones join at: {base}/play")
+        click.echo(f"  database:       {db_path}")
+        click.echo("Stop with Ctrl+C; start again on the same database to resume where it was.", nl=True)
+        sys.stdout.flush()
+
+    return announce
+
+
+def _run_session(
+    study: Study, db_path: Path, host: str, port: int, seed: int | None, pin: str | None
+) -> None:
+    from server import create_app
+    from server.refusals import Refused
+    from server.serving import serve as serve_forever
+
+    config = {"EBBTIDE_DB": str(db_path), "EBBTIDE_STUDY": study, "EBBTIDE_SEED": seed, "EBBTIDE_PIN": pin}
+    try:
+        app = create_app(config)
+    except Refused as exc:
+        click.echo(f"cannot start: {exc.message}", err=True)
+        sys.exit(2)
+    created = app.config.get("EBBTIDE_PIN") is not None
+    try:
+        serve_forever(app, host, port, _announce(app, host, db_path, created))
+    except OSError as exc:
+        click.echo(f"cannot listen on {host}:{port}: {exc.strerror}; choose another --port", err=True)
+        sys.exit(2)
+
+
+_HOST = click.option("--host", default="0.0.0.0", show_default=True,
+                     help="Address to listen on; the default lets phones on the router join.")
+_PORT = click.option("--port", type=click.IntRange(0, 65535), default=8750, show_default=True,
+                     help="Port to listen on (0 picks a free one).")
+
+
+@main.command()
+@click.argument("study_file", type=click.Path(dir_okay=False))
+@click.option("--db", "db_path", type=click.Path(dir_okay=False), default=None,
+              help="SQLite file of the session [default: SESSION-ID.db in this folder].")
+@_HOST
+@_PORT
+@click.option("--seed", type=click.IntRange(0, 2**63 - 1), default=None,
+              help="Seed of every random draw [default: a fresh random seed, stored].")
+@click.option("--pin", type=click.STRING, default=None,
+              help="Console PIN, 4 to 12 digits [default: six random digits, printed].")
+def serve(
+    study_file: str, db_path: str | None, host: str, port: int, seed: int | None, pin: str | None
+) -> None:
+    """Run a live session of STUDY_FILE; on the same database it resumes where it was."""
+    if pin is not None and not (pin.isdigit() and 4 <= len(pin) <= 12):
+        click.echo(f"--pin holds {pin!r}; allowed: 4 to 12 digits", err=True)
+        sys.exit(2)
+    study = _load(study_file)
+    path = Path(db_path) if db_path else Path.cwd() / f"{study.session.id}.db"
+    _run_session(study, path.resolve(), host, port, seed, pin)
+
+
+@main.command()
+@_HOST
+@_PORT
+def demo(host: str, port: int) -> None:
+    """Start the built-in demo session (2 groups of 2 seats) on a fresh database in a temp folder."""
+    import tempfile
+
+    study = _load(str(DEMO_STUDY))
+    folder = Path(tempfile.mkdtemp(prefix="ebbtide-demo-"))
+    _run_session(study, folder / "demo.db", host, port, None, None)
+
+
+@main.command()
+@click.argument("db_path", type=click.Path(exists=True, dir_okay=False))
+@click.option("--out", "out_dir", type=click.Path(file_okay=False), required=True,
+              help="Folder for the tables; one subfolder per session when the database holds several.")
+def export(db_path: str, out_dir: str) -> None:
+    """Write the export tables of every session stored in DB_PATH."""
+    from server.export import export_database
+
+    folders = export_database(db_path, out_dir)
+    if not folders:
+        click.echo(f"{db_path} holds no session; nothing written", err=True)
+        sys.exit(1)
+    for folder in folders:
+        click.echo(f"wrote {folder}/decisions.csv, rounds.csv, seats.csv, datapackage.json")
 
 
 if __name__ == "__main__":

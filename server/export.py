@@ -1,0 +1,54 @@
+"""Export stored sessions as the contract tables (the same tables as the pilot).
+
+The rounds come from ``replay``, the same fold the live server and crash
+recovery use. Rounds still open when the export is made have no outcome yet
+and are left out; their decisions stay in the log.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+from exports.build import tables_from_outcomes
+from exports.writer import write_export
+from game_logic.study import parse_study
+
+from .replay import SessionState, replay
+from .store import Store
+
+EXPORT_SOURCE = "live"
+
+
+def session_state(store: Store, session_id: str) -> SessionState:
+    record = store.session(session_id)
+    if record is None:
+        raise KeyError(f"no session {session_id!r} in {store.path}")
+    study = parse_study(record.study_text)
+    return replay(study, record.seed, session_id, store.events(session_id))
+
+
+def export_session(store: Store, session_id: str, out_dir: str | Path) -> Path:
+    """Write decisions.csv, rounds.csv, seats.csv and datapackage.json of one session."""
+    state = session_state(store, session_id)
+    pairs = state.outcomes()
+    sources = {id(outcome): src for outcome, src in pairs}
+    tables = tables_from_outcomes(
+        state.study, session_id, [o for o, _ in pairs], lambda o: sources[id(o)]
+    )
+    return write_export(out_dir, state.study, session_id, state.seed, EXPORT_SOURCE, tables)
+
+
+def export_database(db_path: str | Path, out_dir: str | Path) -> list[Path]:
+    """Export every session of a database.
+
+    One session is written directly into ``out_dir``; several go into one
+    subfolder each, named after the session id.
+    """
+    store = Store(db_path)
+    try:
+        ids = [record.session_id for record in store.sessions()]
+        if len(ids) == 1:
+            return [export_session(store, ids[0], out_dir)]
+        return [export_session(store, sid, Path(out_dir) / sid) for sid in ids]
+    finally:
+        store.close()

@@ -1,0 +1,260 @@
+"""Rebuild a session from its event log: the one place where events become rounds.
+
+The live server, crash recovery and the export all fold the same events through
+``SessionState.apply``; resolution is pure (``game_logic.rounds.resolve`` with
+``seeding.round_rng``), so replaying the log gives back every round exactly.
+No Flask and no database here: events come in as (kind, body, decision_id).
+
+Pacing rules (also in ``docs/server.md``):
+
+- nothing can be decided before ``session_started``, while paused, or after the end;
+- a group's round resolves as soon as every seat of the group has decided, or when
+  the facilitator closes it (``round_closed``): seats that had not decided take 0,
+  recorded with source ``console``;
+- groups progress independently; when a group's block is over it waits until the
+  facilitator opens its next block (``block_opened``);
+- the session ends on ``session_ended``, or by itself once every group has
+  played its last block.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterable
+from dataclasses import dataclass, field
+from typing import Any
+
+from game_logic.payoffs import points
+from game_logic.rounds import GroupState, RoundOutcome, next_block, resolve, start_block
+from game_logic.seeding import round_rng
+from game_logic.study import Study
+from game_logic.treatments import participant_view
+
+from .refusals import Refused
+
+SOURCES = ("phone", "console", "bot")
+# Events that only record what replay derives anyway (kept for people reading the log).
+AUDIT_KINDS = frozenset({"session_created", "round_resolved"})
+
+
+@dataclass(frozen=True)
+class Decision:
+    """One seat's stored harvest for an open round."""
+
+    harvest: int
+    source: str
+    decision_id: str | None
+
+
+@dataclass(frozen=True)
+class Receipt:
+    """Where a decision id was counted, so a resend is acknowledged the same way."""
+
+    group: int
+    seat: int
+    block: int
+    round: int
+    harvest: int
+
+
+@dataclass
+class GroupProgress:
+    """One group's state between events."""
+
+    state: GroupState
+    outcomes: list[RoundOutcome] = field(default_factory=list)
+    sources: list[tuple[str, ...]] = field(default_factory=list)
+    pending: dict[int, Decision] = field(default_factory=dict)
+    points: list[float] = field(default_factory=list)
+    waiting: bool = False  # block over, next block not yet opened by the facilitator
+
+    @property
+    def last_outcome(self) -> RoundOutcome | None:
+        if self.outcomes and self.outcomes[-1].block == self.state.block:
+            return self.outcomes[-1]
+        return None
+
+
+@dataclass
+class SessionState:
+    """A whole session as rebuilt from its log."""
+
+    study: Study
+    seed: int
+    session_id: str
+    status: str = "setup"  # setup | running | paused | ended
+    groups: list[GroupProgress] = field(default_factory=list)
+    devices: dict[tuple[int, int], list[str]] = field(default_factory=dict)
+    receipts: dict[str, Receipt] = field(default_factory=dict)
+    seq: int = 0
+
+    @classmethod
+    def new(cls, study: Study, seed: int, session_id: str) -> SessionState:
+        groups = [
+            GroupProgress(start_block(study, seed, g, 0), points=[0.0] * study.seats)
+            for g in range(study.groups.count)
+        ]
+        return cls(study=study, seed=seed, session_id=session_id, groups=groups)
+
+    # -- checks (raise Refused, change nothing) -------------------------------
+
+    def _group(self, group: int) -> GroupProgress:
+        if not 0 <= group < len(self.groups):
+            raise Refused(
+                "unknown_group", f"group {group + 1} does not exist; allowed: 1..{len(self.groups)}"
+            )
+        return self.groups[group]
+
+    def check(self, kind: str, body: dict[str, Any]) -> None:
+        """Raise ``Refused`` if the event cannot happen now."""
+        if kind == "session_started":
+            if self.status != "setup":
+                raise Refused("already_started", f"the session is already {self.status}")
+        elif kind == "session_paused":
+            if self.status != "running":
+                raise Refused("not_running", f"only a running session can be paused; it is {self.status}")
+        elif kind == "session_resumed":
+            if self.status != "paused":
+                raise Refused("not_paused", f"only a paused session can be resumed; it is {self.status}")
+        elif kind == "session_ended":
+            if self.status == "ended":
+                raise Refused("session_over", "the session has already ended")
+        elif kind == "seat_claimed":
+            self._group(body["group"])
+        elif kind == "harvest_submitted":
+            self._check_harvest(body)
+        elif kind == "round_closed":
+            self._check_open_round(body, decided_ok=True)
+        elif kind == "block_opened":
+            progress = self._group(body["group"])
+            if self.status == "ended":
+                raise Refused("session_over", "the session has ended")
+            if not progress.waiting:
+                raise Refused(
+                    "block_running",
+                    f"group {body['group'] + 1} is still playing block {progress.state.block + 1}",
+                )
+        elif kind not in AUDIT_KINDS:
+            raise Refused("unknown_event", f"unknown event {kind!r}")
+
+    def _check_open_round(self, body: dict[str, Any], decided_ok: bool) -> GroupProgress:
+        progress = self._group(body["group"])
+        state = progress.state
+        if self.status == "ended" or state.session_over:
+            raise Refused("session_over", "the session has ended; no more decisions are taken")
+        if self.status == "setup":
+            raise Refused("not_started", "the session has not started yet; wait for the facilitator")
+        if progress.waiting or state.block_over:
+            raise Refused("block_over", f"block {state.block + 1} is over; wait for the next block")
+        current = (state.block + 1, state.round + 1)
+        asked_for = (body["block"], body["round"])
+        if asked_for != current:
+            raise Refused(
+                "wrong_round",
+                f"that decision is for block {asked_for[0]}, round {asked_for[1]}; "
+                f"the open round is block {current[0]}, round {current[1]}",
+            )
+        return progress
+
+    def _check_harvest(self, body: dict[str, Any]) -> None:
+        progress = self._check_open_round(body, decided_ok=False)
+        if self.status == "paused":
+            raise Refused("paused", "the session is paused; wait until the facilitator resumes it")
+        seat, harvest, cap = body["seat"], body["harvest"], self.study.resource.max_harvest
+        if not 0 <= seat < self.study.seats:
+            raise Refused("unknown_seat", f"seat {seat + 1} does not exist; allowed: 1..{self.study.seats}")
+        if isinstance(harvest, bool) or not isinstance(harvest, int) or not 0 <= harvest <= cap:
+            raise Refused(
+                "invalid_harvest",
+                f"harvest {harvest!r} is not allowed; allowed: a whole number from 0 to {cap}",
+            )
+        if body["source"] not in SOURCES:
+            raise Refused("bad_request", f"source {body['source']!r}; allowed: {', '.join(SOURCES)}")
+        if seat in progress.pending:
+            raise Refused("already_decided", "this seat has already decided in this round")
+
+    # -- applying (events already checked or read back from the log) ----------
+
+    def apply(self, kind: str, body: dict[str, Any], decision_id: str | None, seq: int) -> list[RoundOutcome]:
+        """Fold one event into the state; returns the rounds it resolved."""
+        self.seq = seq
+        resolved: list[RoundOutcome] = []
+        if kind == "session_started":
+            self.status = "running"
+        elif kind == "session_paused":
+            self.status = "paused"
+        elif kind == "session_resumed":
+            self.status = "running"
+        elif kind == "session_ended":
+            self.status = "ended"
+        elif kind == "seat_claimed":
+            devices = self.devices.setdefault((body["group"], body["seat"]), [])
+            if body["device"] not in devices:
+                devices.append(body["device"])
+        elif kind == "harvest_submitted":
+            g, seat = body["group"], body["seat"]
+            progress = self.groups[g]
+            progress.pending[seat] = Decision(body["harvest"], body["source"], decision_id)
+            if decision_id is not None:
+                self.receipts[decision_id] = Receipt(g, seat, body["block"], body["round"], body["harvest"])
+            if len(progress.pending) == self.study.seats:
+                resolved.append(self._resolve(g))
+        elif kind == "round_closed":
+            resolved.append(self._resolve(body["group"]))
+        elif kind == "block_opened":
+            progress = self.groups[body["group"]]
+            progress.state = next_block(self.study, self.seed, progress.state)
+            progress.waiting = False
+        return resolved
+
+    def _resolve(self, g: int) -> RoundOutcome:
+        progress = self.groups[g]
+        state = progress.state
+        seats = range(self.study.seats)
+        missing = Decision(0, "console", None)
+        decisions = [progress.pending.get(s, missing) for s in seats]
+        rng = round_rng(self.seed, g, state.block, state.round + 1)
+        new_state, outcome = resolve(self.study, state, [d.harvest for d in decisions], rng)
+        progress.state = new_state
+        progress.outcomes.append(outcome)
+        progress.sources.append(tuple(d.source for d in decisions))
+        progress.pending = {}
+        for s in seats:
+            progress.points[s] += points(outcome.taken[s], self.study.payment)
+        progress.waiting = new_state.block_over and not new_state.session_over
+        if all(p.state.session_over for p in self.groups):
+            self.status = "ended"
+        return outcome
+
+    # -- reading -------------------------------------------------------------
+
+    def seat_snapshot(self, g: int, seat: int) -> dict[str, Any]:
+        """Everything a phone receives: the treatment's view plus neutral UI state."""
+        progress = self.groups[g]
+        view = participant_view(
+            self.study, progress.state, seat, progress.last_outcome, progress.points[seat]
+        )
+        mine = progress.pending.get(seat)
+        return {
+            "seq": self.seq,
+            "status": self.status,
+            "waiting_for_block": progress.waiting,
+            "decided": mine is not None,
+            "my_harvest": None if mine is None else mine.harvest,
+            "view": view,
+        }
+
+    def outcomes(self) -> list[tuple[RoundOutcome, tuple[str, ...]]]:
+        """Every resolved round with each seat's source, group by group, in play order."""
+        return [
+            (outcome, sources)
+            for progress in self.groups
+            for outcome, sources in zip(progress.outcomes, progress.sources, strict=True)
+        ]
+
+
+def replay(study: Study, seed: int, session_id: str, events: Iterable[Any]) -> SessionState:
+    """Fold stored events (objects with kind, body, decision_id, id) into a fresh state."""
+    state = SessionState.new(study, seed, session_id)
+    for event in events:
+        state.apply(event.kind, event.body, event.decision_id, event.id)
+    return state

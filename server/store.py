@@ -1,0 +1,225 @@
+"""The SQLite event store: the only module that touches the database.
+
+A session is its study text, its seed and an append-only log of events. Nothing
+is updated in place; a correction is a new event that references the old one.
+Every write goes through one connection behind one lock (one writer), in WAL
+mode with ``synchronous=FULL``, so an event is on disk when ``append`` returns:
+acknowledged means stored.
+"""
+
+from __future__ import annotations
+
+import json
+import sqlite3
+import threading
+from dataclasses import dataclass
+from datetime import UTC, datetime
+from pathlib import Path
+from typing import Any
+
+import sqlite_utils
+
+BUSY_TIMEOUT_MS = 5000
+
+
+@dataclass(frozen=True)
+class SessionRecord:
+    """What was fixed when a session was created."""
+
+    session_id: str
+    study_text: str
+    seed: int
+    pin_hash: str
+    secret_key: str
+    created_at: str
+
+
+@dataclass(frozen=True)
+class SeatKey:
+    """The credentials printed on one seat card (group and seat 0-based)."""
+
+    session_id: str
+    group: int
+    seat: int
+    secret: str
+    short_code: str
+
+
+@dataclass(frozen=True)
+class Event:
+    """One stored event; ``id`` orders the log and doubles as the sequence number."""
+
+    id: int
+    session_id: str
+    kind: str
+    body: dict[str, Any]
+    decision_id: str | None
+    created_at: str
+
+
+def connect(path: str | Path) -> sqlite3.Connection:
+    """A connection with the pragmas every connection of Ebbtide must have."""
+    conn = sqlite3.connect(str(path), check_same_thread=False, isolation_level=None)
+    conn.execute(f"PRAGMA busy_timeout = {BUSY_TIMEOUT_MS}")
+    conn.execute("PRAGMA foreign_keys = ON")
+    conn.execute("PRAGMA journal_mode = WAL")
+    # FULL: a commit is fsynced before it returns, so an acknowledged decision survives a power cut.
+    conn.execute("PRAGMA synchronous = FULL")
+    return conn
+
+
+def _now() -> str:
+    return datetime.now(UTC).isoformat(timespec="milliseconds")
+
+
+class Store:
+    """Append-only event log of one database file, safe to share between threads."""
+
+    def __init__(self, path: str | Path):
+        self.path = Path(path)
+        self._lock = threading.Lock()
+        self.db = sqlite_utils.Database(connect(self.path))
+        self._create_tables()
+
+    def close(self) -> None:
+        with self._lock:
+            self.db.close()
+
+    def __enter__(self) -> Store:
+        return self
+
+    def __exit__(self, *exc_info) -> None:
+        self.close()
+
+    def _create_tables(self) -> None:
+        with self._lock:
+            self.db["sessions"].create(
+                {
+                    "session_id": str, "study_text": str, "seed": int, "pin_hash": str,
+                    "secret_key": str, "created_at": str,
+                },
+                pk="session_id", if_not_exists=True,
+            )
+            self.db["seat_keys"].create(
+                {"session_id": str, "group_index": int, "seat_index": int, "secret": str, "short_code": str},
+                pk=("session_id", "group_index", "seat_index"),
+                foreign_keys=[("session_id", "sessions", "session_id")],
+                if_not_exists=True,
+            )
+            self.db["seat_keys"].create_index(["secret"], unique=True, if_not_exists=True)
+            self.db["seat_keys"].create_index(["short_code"], unique=True, if_not_exists=True)
+            self.db["events"].create(
+                {
+                    "id": int, "session_id": str, "kind": str, "body": str,
+                    "decision_id": str, "created_at": str,
+                },
+                pk="id", not_null={"session_id", "kind", "body"},
+                foreign_keys=[("session_id", "sessions", "session_id")],
+                if_not_exists=True,
+            )
+            # A resent decision must find its first copy, never become a second one.
+            self.db["events"].create_index(
+                ["session_id", "decision_id"], unique=True, if_not_exists=True
+            )
+
+    # -- writing ---------------------------------------------------------------
+
+    def create_session(
+        self, record: SessionRecord, seat_keys: list[SeatKey], body: dict[str, Any]
+    ) -> Event:
+        """Store a new session, its seat keys and its ``session_created`` event at once."""
+        with self._lock, self.db.conn:
+            self.db.conn.execute("BEGIN IMMEDIATE")
+            # Plain statements: sqlite-utils' insert commits on its own, which would split this transaction.
+            self.db.conn.execute(
+                "INSERT INTO sessions (session_id, study_text, seed, pin_hash, secret_key, created_at)"
+                " VALUES (?, ?, ?, ?, ?, ?)",
+                (record.session_id, record.study_text, record.seed, record.pin_hash,
+                 record.secret_key, record.created_at),
+            )
+            self.db.conn.executemany(
+                "INSERT INTO seat_keys (session_id, group_index, seat_index, secret, short_code)"
+                " VALUES (?, ?, ?, ?, ?)",
+                [(k.session_id, k.group, k.seat, k.secret, k.short_code) for k in seat_keys],
+            )
+            return self._insert_event(record.session_id, "session_created", body, None)
+
+    def append(
+        self, session_id: str, kind: str, body: dict[str, Any], decision_id: str | None = None
+    ) -> tuple[Event, bool]:
+        """Append one event and commit it; returns (event, is_new).
+
+        An event whose ``decision_id`` is already stored is not written again:
+        the first copy comes back with ``is_new`` False.
+        """
+        with self._lock:
+            if decision_id is not None:
+                earlier = self._event_by_decision(session_id, decision_id)
+                if earlier is not None:
+                    return earlier, False
+            with self.db.conn:
+                self.db.conn.execute("BEGIN IMMEDIATE")
+                return self._insert_event(session_id, kind, body, decision_id), True
+
+    def _insert_event(
+        self, session_id: str, kind: str, body: dict[str, Any], decision_id: str | None
+    ) -> Event:
+        created = _now()
+        cursor = self.db.conn.execute(
+            "INSERT INTO events (session_id, kind, body, decision_id, created_at) VALUES (?, ?, ?, ?, ?)",
+            (session_id, kind, json.dumps(body, sort_keys=True), decision_id, created),
+        )
+        return Event(cursor.lastrowid, session_id, kind, body, decision_id, created)
+
+    # -- reading ---------------------------------------------------------------
+
+    def _event_by_decision(self, session_id: str, decision_id: str) -> Event | None:
+        rows = list(
+            self.db.query(
+                "SELECT * FROM events WHERE session_id = ? AND decision_id = ?", (session_id, decision_id)
+            )
+        )
+        return _event(rows[0]) if rows else None
+
+    def sessions(self) -> list[SessionRecord]:
+        """Every session in the database, oldest first."""
+        with self._lock:
+            rows = list(self.db.query("SELECT * FROM sessions ORDER BY created_at, session_id"))
+        return [SessionRecord(**row) for row in rows]
+
+    def session(self, session_id: str) -> SessionRecord | None:
+        with self._lock:
+            rows = list(self.db.query("SELECT * FROM sessions WHERE session_id = ?", (session_id,)))
+        return SessionRecord(**rows[0]) if rows else None
+
+    def seat_keys(self, session_id: str) -> list[SeatKey]:
+        with self._lock:
+            rows = list(
+                self.db.query(
+                    "SELECT * FROM seat_keys WHERE session_id = ? ORDER BY group_index, seat_index",
+                    (session_id,),
+                )
+            )
+        return [
+            SeatKey(r["session_id"], r["group_index"], r["seat_index"], r["secret"], r["short_code"])
+            for r in rows
+        ]
+
+    def short_code_taken(self, code: str) -> bool:
+        with self._lock:
+            return bool(list(self.db.query("SELECT 1 FROM seat_keys WHERE short_code = ?", (code,))))
+
+    def events(self, session_id: str) -> list[Event]:
+        """The whole log of a session in the order it was written."""
+        with self._lock:
+            rows = list(
+                self.db.query("SELECT * FROM events WHERE session_id = ? ORDER BY id", (session_id,))
+            )
+        return [_event(row) for row in rows]
+
+
+def _event(row: dict) -> Event:
+    return Event(
+        row["id"], row["session_id"], row["kind"], json.loads(row["body"]),
+        row["decision_id"], row["created_at"],
+    )

@@ -1,0 +1,122 @@
+// The console: live seats and results per group, and the facilitator's pacing buttons.
+(function () {
+  "use strict";
+  var S = JSON.parse(document.getElementById("console-strings").textContent);
+  var $ = function (id) { return document.getElementById(id); };
+  function fmt(key, values) {
+    return (S[key] || key).replace(/%\((\w+)\)s/g, function (_, n) { return values[n]; });
+  }
+  function el(tag, text, cls) {
+    var node = document.createElement(tag);
+    if (text !== undefined && text !== null) node.textContent = text;
+    if (cls) node.className = cls;
+    return node;
+  }
+  function row(cells, header) {
+    var tr = el("tr");
+    cells.forEach(function (c) {
+      var cell = el(header ? "th" : "td");
+      if (c instanceof Node) cell.appendChild(c); else cell.textContent = c;
+      tr.appendChild(cell);
+    });
+    return tr;
+  }
+  function mark(yes) { return el("span", yes ? S.yes : S.no, yes ? "mark-yes" : "mark-no"); }
+
+  var socket = io({ auth: { role: "console" } });
+  var state = null;
+
+  socket.on("connect", function () { $("connection").textContent = S.connected; });
+  socket.on("disconnect", function () { $("connection").textContent = S.disconnected; });
+  socket.on("connect_error", function () { $("connection").textContent = S.disconnected; });
+  socket.on("console_state", function (s) {
+    if (state && s.seq < state.seq) return;
+    state = s;
+    render();
+  });
+  socket.on("problem", function (p) {
+    $("console-problem").textContent = fmt("refused", { message: p.message });
+    $("console-problem").hidden = false;
+  });
+
+  function act(event, body) {
+    $("console-problem").hidden = true;
+    socket.emit(event, body || {}, function () {});
+  }
+  $("cautions-read").addEventListener("change", render);
+  $("start").addEventListener("click", function () { act("console_start"); });
+  $("pause").addEventListener("click", function () { act("console_pause"); });
+  $("resume").addEventListener("click", function () { act("console_resume"); });
+  $("open-all").addEventListener("click", function () { act("console_open_block", { group: null }); });
+  $("end").addEventListener("click", function () {
+    if (window.confirm($("end").textContent + "?")) act("console_end");
+  });
+
+  function render() {
+    if (!state) return;
+    $("status-word").textContent = S["status_" + state.status];
+    $("start").disabled = state.status !== "setup" || !$("cautions-read").checked;
+    $("start").hidden = state.status !== "setup";
+    $("pause").hidden = state.status !== "running";
+    $("resume").hidden = state.status !== "paused";
+    $("end").disabled = state.status === "ended";
+    $("open-all").disabled = !state.groups.some(function (g) { return g.waiting_for_block; });
+    var box = $("groups");
+    box.textContent = "";
+    state.groups.forEach(function (g) { box.appendChild(groupCard(g)); });
+  }
+
+  function groupCard(g) {
+    var card = el("section", null, "card group");
+    card.dataset.group = g.group;
+    card.appendChild(el("h2", S.group + " " + g.group_id));
+    var line = g.session_over ? S.group_done : g.waiting_for_block ? S.waiting_block : S.playing;
+    card.appendChild(el("p", S.block + " " + g.block + "/" + state.blocks + " (" + g.block_name + ", " +
+      g.treatment + ") · " + S.round + " " + g.round + " · " + S.stock + " " + g.stock + " · " + line, "state-line"));
+
+    var hidden = el("div", null, "hidden-values");
+    hidden.appendChild(el("span", S.hidden, "tag"));
+    hidden.appendChild(el("p", S.threshold + ": " + (g.hidden.threshold === null ? "—" : g.hidden.threshold.toFixed(1)) +
+      " · " + S.regime + ": " + g.hidden.regime));
+    card.appendChild(hidden);
+
+    var seats = el("table");
+    seats.appendChild(row([S.seat, S.code, S.joined, S.decided, S.points], true));
+    g.seats.forEach(function (s) {
+      var joined = mark(s.devices > 0);
+      if (s.devices > 1) joined.textContent += " (" + fmt("devices", { n: s.devices }) + ")";
+      var decided = mark(s.decided);
+      if (s.decided) decided.textContent += " (" + s.harvest + ")";
+      seats.appendChild(row([s.seat_id, s.short_code, joined, decided, s.points], false));
+    });
+    card.appendChild(seats);
+
+    var buttons = el("div", null, "buttons");
+    var close = el("button", S.close_round);
+    close.type = "button";
+    close.disabled = state.status === "setup" || state.status === "ended" || g.waiting_for_block || g.session_over;
+    close.addEventListener("click", function () { act("console_close_round", { group: g.group }); });
+    var open = el("button", S.open_block);
+    open.type = "button";
+    open.disabled = !g.waiting_for_block;
+    open.addEventListener("click", function () { act("console_open_block", { group: g.group }); });
+    buttons.appendChild(close); buttons.appendChild(open);
+    card.appendChild(buttons);
+
+    card.appendChild(el("h3", S.results));
+    if (!g.rounds.length) { card.appendChild(el("p", S.no_rounds, "quiet")); return card; }
+    var results = el("table");
+    results.appendChild(row([S.block, S.round, S.stock, S.asked, S.taken, S.left, S.after,
+      S.crossed + " *", S.flip + " *"], true));
+    g.rounds.slice().reverse().forEach(function (r) {
+      results.appendChild(row([r.block, r.round, r.stock_before, r.asked.join(" "), r.taken.join(" "),
+        r.remaining, r.stock_after + (r.end_reason ? " (" + S.ended_by + ": " + r.end_reason + ")" : ""),
+        r.hidden.crossed ? S.yes : S.no, r.hidden.flip_draw], false));
+    });
+    var wrap = el("div", null, "table-wrap");
+    wrap.appendChild(results);
+    card.appendChild(wrap);
+    card.appendChild(el("p", "* " + S.hidden, "quiet"));
+    return card;
+  }
+})();

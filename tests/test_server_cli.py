@@ -1,0 +1,54 @@
+"""The serve, demo and export commands, run as real processes."""
+
+from __future__ import annotations
+
+import re
+import subprocess
+import sys
+
+import pytest
+import requests
+from conftest import ROOT, ServeProcess
+
+pytestmark = pytest.mark.slow
+
+
+@pytest.mark.parametrize("command", ["serve", "demo", "export"])
+def test_every_new_command_has_help(command):
+    done = subprocess.run([sys.executable, "-m", "server.cli", command, "--help"], cwd=ROOT,
+                          capture_output=True, text=True, timeout=60)
+    assert done.returncode == 0 and "Usage:" in done.stdout
+
+
+def test_demo_prints_console_pin_and_seat_cards_and_serves_pages():
+    demo = ServeProcess("demo")
+    try:
+        text = "".join(demo.printed)
+        pin = re.search(r"console PIN:\s+(\d{6})", text).group(1)
+        assert re.search(r"seat cards:\s+http://[\d.]+:\d+/console/cards", text)
+        assert requests.get(f"{demo.url}/play", timeout=5).status_code == 200
+        http = requests.Session()
+        login = http.post(f"{demo.url}/console/login", data={"pin": pin}, timeout=5)
+        cards = http.get(f"{demo.url}/console/cards", timeout=5)
+        assert login.status_code == 200 and "Before you start" in login.text
+        assert cards.text.count('class="seat-card"') == 4
+    finally:
+        demo.kill()
+
+
+def test_serve_refuses_a_malformed_pin_and_says_what_is_allowed(tmp_path):
+    done = subprocess.run(
+        [sys.executable, "-m", "server.cli", "serve", "examples/brackwater-demo.toml",
+         "--db", str(tmp_path / "x.db"), "--pin", "12ab"],
+        cwd=ROOT, capture_output=True, text=True, timeout=60,
+    )
+    assert done.returncode == 2 and "allowed: 4 to 12 digits" in done.stderr
+    assert not (tmp_path / "x.db").exists()
+
+
+def test_export_of_a_missing_database_is_refused(tmp_path):
+    done = subprocess.run(
+        [sys.executable, "-m", "server.cli", "export", str(tmp_path / "none.db"), "--out", str(tmp_path)],
+        cwd=ROOT, capture_output=True, text=True, timeout=60,
+    )
+    assert done.returncode == 2 and "does not exist" in done.stderr
