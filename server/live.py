@@ -75,28 +75,53 @@ class LiveSession:
 
     def submit(self, kind: str, body: dict[str, Any], decision_id: str | None = None) -> Change:
         """Check, store and apply one event; raise ``Refused`` (nothing changed) if it cannot be."""
+        return self.submit_many([(kind, body, decision_id)])
+
+    def submit_many(self, requests: list[tuple[str, dict[str, Any], str | None]]) -> Change:
+        """Check every event, then store them (and the rounds they resolve) in one transaction.
+
+        All or nothing: one refusal refuses the lot. The events must not depend on
+        each other's checks (paper slips of one round: distinct seats).
+        """
         with self._lock:
-            if decision_id is not None and decision_id in self.state.receipts:
-                receipt = self.state.receipts[decision_id]
-                if (receipt.group, receipt.seat) != (body.get("group"), body.get("seat")):
-                    raise Refused("bad_request", "that decision id belongs to another seat")
-                return Change(self.state.seq, False, receipt=receipt)
-            self.state.check(kind, body)
-            event, is_new = self.store.append(self.session_id, kind, body, decision_id)
-            resolved = self.state.apply(kind, body, decision_id, event.id)
-            for outcome in resolved:
-                audit, _ = self.store.append(self.session_id, "round_resolved", _audit(outcome))
-                self.state.seq = audit.id
-            receipt = self.state.receipts.get(decision_id) if decision_id else None
-            return Change(self.state.seq, is_new, tuple(resolved), receipt)
+            fresh = []
+            for kind, body, decision_id in requests:
+                if decision_id is not None and decision_id in self.state.receipts:
+                    receipt = self.state.receipts[decision_id]
+                    if (receipt.group, receipt.seat) != (body.get("group"), body.get("seat")):
+                        raise Refused("bad_request", "that decision id belongs to another seat")
+                    continue
+                self.state.check(kind, body)
+                fresh.append((kind, body, decision_id))
+            if not fresh:
+                decision_id = requests[-1][2]
+                return Change(self.state.seq, False, receipt=self.state.receipts.get(decision_id))
+            resolved: list[RoundOutcome] = []
+            try:
+                with self.store.atomic(self.session_id) as writer:
+                    for kind, body, decision_id in fresh:
+                        event, _ = writer.append(kind, body, decision_id)
+                        done = self.state.apply(kind, body, decision_id, event.id)
+                        for outcome in done:
+                            audit, _ = writer.append("round_resolved", _audit(outcome))
+                            self.state.seq = audit.id
+                        resolved.extend(done)
+            except BaseException:
+                # The transaction rolled back: rebuild the state from what is really stored.
+                self.state = replay(self.study, self.record.seed, self.session_id,
+                                    self.store.events(self.session_id))
+                raise
+            last_id = requests[-1][2]
+            receipt = self.state.receipts.get(last_id) if last_id else None
+            return Change(self.state.seq, True, tuple(resolved), receipt)
 
     def seat_snapshot(self, group: int, seat: int) -> dict[str, Any]:
         with self._lock:
             return self.state.seat_snapshot(group, seat)
 
-    def console_snapshot(self) -> dict[str, Any]:
+    def console_snapshot(self, online: dict[tuple[int, int], int] | None = None) -> dict[str, Any]:
         with self._lock:
-            return console_snapshot(self.state, self.keys)
+            return console_snapshot(self.state, self.keys, online or {})
 
 
 def _audit(outcome: RoundOutcome) -> dict[str, Any]:
@@ -108,8 +133,13 @@ def _audit(outcome: RoundOutcome) -> dict[str, Any]:
     }
 
 
-def console_snapshot(state: SessionState, keys: list[SeatKey]) -> dict[str, Any]:
-    """What the facilitator sees: everything, hidden values included (and marked so)."""
+def console_snapshot(
+    state: SessionState, keys: list[SeatKey], online: dict[tuple[int, int], int]
+) -> dict[str, Any]:
+    """What the facilitator sees: everything, hidden values included (and marked so).
+
+    ``online`` counts the sockets open on each seat right now (a dead phone shows 0).
+    """
     study = state.study
     codes = {(k.group, k.seat): k.short_code for k in keys}
     groups = []
@@ -124,6 +154,7 @@ def console_snapshot(state: SessionState, keys: list[SeatKey]) -> dict[str, Any]
             "round": gs.round + (0 if gs.block_over else 1),
             "stock": gs.stock,
             "waiting_for_block": progress.waiting,
+            "paused": progress.paused,
             "session_over": gs.session_over,
             "hidden": {"threshold": gs.threshold, "regime": str(gs.regime)},
             "seats": [
@@ -132,8 +163,12 @@ def console_snapshot(state: SessionState, keys: list[SeatKey]) -> dict[str, Any]
                     "seat_id": seat_code(g, s),
                     "short_code": codes.get((g, s), ""),
                     "devices": len(state.devices.get((g, s), [])),
+                    "online": online.get((g, s), 0),
+                    "released": (g, s) in state.released,
                     "decided": s in progress.pending,
                     "harvest": progress.pending[s].harvest if s in progress.pending else None,
+                    "source": progress.pending[s].source if s in progress.pending else None,
+                    "entry": progress.pending[s].event_id if s in progress.pending else None,
                     "points": progress.points[s],
                 }
                 for s in range(study.seats)
@@ -184,6 +219,21 @@ class Registry:
     def forget(self, sid: str) -> None:
         with self._lock:
             self._connections.pop(sid, None)
+
+    def online(self) -> dict[tuple[int, int], int]:
+        """Open phone sockets per (group, seat)."""
+        counts: dict[tuple[int, int], int] = {}
+        with self._lock:
+            for conn in self._connections.values():
+                if conn.role == "phone":
+                    counts[(conn.group, conn.seat)] = counts.get((conn.group, conn.seat), 0) + 1
+        return counts
+
+    def seat_sids(self, group: int, seat: int) -> list[str]:
+        """Socket ids of the phones open on one seat."""
+        with self._lock:
+            return [sid for sid, conn in self._connections.items()
+                    if conn.role == "phone" and (conn.group, conn.seat) == (group, seat)]
 
     def open(self, session_id: str) -> LiveSession:
         """Load (replay) a stored session and make it the one served."""

@@ -14,6 +14,12 @@ from pydantic import BaseModel, ConfigDict, Field, StringConstraints
 SeatSecret = Annotated[str, StringConstraints(pattern=r"^[A-Za-z0-9_-]{16,64}$")]
 ClientId = Annotated[str, StringConstraints(pattern=r"^[A-Za-z0-9_-]{8,64}$")]
 Count = Annotated[int, Field(ge=1, le=1000)]
+GroupNumber = Annotated[int, Field(ge=1, le=100)]
+SeatNumber = Annotated[int, Field(ge=1, le=100)]
+Harvest = Annotated[int, Field(ge=0, le=1000)]
+EntryId = Annotated[int, Field(ge=1, le=2**62)]
+# Who typed a console entry (initials), kept in the event log; blank means "console".
+Operator = Annotated[str, StringConstraints(pattern=r"^[A-Za-z0-9 .'-]{0,24}$")]
 
 
 class _Message(BaseModel):
@@ -26,6 +32,9 @@ class PhoneAuth(_Message):
     secret: SeatSecret
     device: ClientId
     agent: Literal["phone", "bot"] = "phone"
+    # True when the secret came from the seat card just now (its link), not from storage:
+    # only such a device may take back a seat the facilitator released.
+    fresh: bool = False
 
 
 class ConsoleAuth(_Message):
@@ -40,13 +49,60 @@ class HarvestRequest(_Message):
     decision_id: ClientId
     block: Count
     round: Count
-    harvest: Annotated[int, Field(ge=0, le=1000)]
+    harvest: Harvest
+    # Optional, 1-based: a phone that names a seat must name its own.
+    group: GroupNumber | None = None
+    seat: SeatNumber | None = None
 
 
 class GroupTarget(_Message):
     """A facilitator action on one group (1-based), or on every group when ``group`` is None."""
 
-    group: Annotated[int, Field(ge=1, le=100)] | None = None
+    group: GroupNumber | None = None
+
+
+class GroupAction(_Message):
+    """A facilitator action on exactly one group (pause, resume)."""
+
+    group: GroupNumber
+    by: Operator = ""
+
+
+class SeatAction(_Message):
+    """A facilitator action on one seat (release it)."""
+
+    group: GroupNumber
+    seat: SeatNumber
+    by: Operator = ""
+
+
+class ConsoleHarvest(_Message):
+    """A harvest the facilitator enters for a seat whose phone cannot (source ``console``)."""
+
+    decision_id: ClientId
+    group: GroupNumber
+    seat: SeatNumber
+    block: Count
+    round: Count
+    harvest: Harvest
+    by: Operator = ""
+
+
+class ConsoleCorrection(ConsoleHarvest):
+    """A new entry that supersedes the seat's current entry of the open round."""
+
+    supersedes: EntryId
+
+
+class PaperSlips(_Message):
+    """Every seat's harvest of one round, typed from paper slips; ``None`` leaves a seat as it is."""
+
+    batch_id: Annotated[str, StringConstraints(pattern=r"^[A-Za-z0-9_-]{8,48}$")]
+    group: GroupNumber
+    block: Count
+    round: Count
+    harvests: Annotated[list[Harvest | None], Field(min_length=1, max_length=100)]
+    by: Operator = ""
 
 
 class Empty(_Message):

@@ -14,7 +14,13 @@ Pacing rules (also in ``docs/server.md``):
 - groups progress independently; when a group's block is over it waits until the
   facilitator opens its next block (``block_opened``);
 - the session ends on ``session_ended``, or by itself once every group has
-  played its last block.
+  played its last block;
+- a paused group (``group_paused``) takes no decision from phones until
+  ``group_resumed``; the console may still enter harvests for it;
+- a correction (``harvest_corrected``) replaces a seat's decision only while its
+  round is open; a resolved round never changes;
+- a released seat (``seat_released``) forgets the devices that held it: only a
+  device that presents the seat card again holds it afterwards.
 """
 
 from __future__ import annotations
@@ -34,6 +40,7 @@ from .refusals import Refused
 SOURCES = ("phone", "console", "bot")
 # Events that only record what replay derives anyway (kept for people reading the log).
 AUDIT_KINDS = frozenset({"session_created", "round_resolved"})
+GROUP_KINDS = frozenset({"group_paused", "group_resumed"})
 
 
 @dataclass(frozen=True)
@@ -43,6 +50,7 @@ class Decision:
     harvest: int
     source: str
     decision_id: str | None
+    event_id: int | None = None  # the event a correction must name to supersede this one
 
 
 @dataclass(frozen=True)
@@ -66,6 +74,7 @@ class GroupProgress:
     pending: dict[int, Decision] = field(default_factory=dict)
     points: list[float] = field(default_factory=list)
     waiting: bool = False  # block over, next block not yet opened by the facilitator
+    paused: bool = False  # phones of this group wait; the console may still enter harvests
 
     @property
     def last_outcome(self) -> RoundOutcome | None:
@@ -83,7 +92,8 @@ class SessionState:
     session_id: str
     status: str = "setup"  # setup | running | paused | ended
     groups: list[GroupProgress] = field(default_factory=list)
-    devices: dict[tuple[int, int], list[str]] = field(default_factory=dict)
+    devices: dict[tuple[int, int], list[str]] = field(default_factory=dict)  # holders since the last release
+    released: set[tuple[int, int]] = field(default_factory=set)
     receipts: dict[str, Receipt] = field(default_factory=dict)
     seq: int = 0
 
@@ -120,8 +130,24 @@ class SessionState:
                 raise Refused("session_over", "the session has already ended")
         elif kind == "seat_claimed":
             self._group(body["group"])
+        elif kind == "seat_released":
+            self._check_seat(body["seat"])
+            self._group(body["group"])
+            if not self.devices.get((body["group"], body["seat"])):
+                raise Refused("not_claimed", f"seat {body['seat'] + 1} of group {body['group'] + 1} "
+                              "is not held by any device; nothing to release")
+        elif kind in GROUP_KINDS:
+            progress = self._group(body["group"])
+            if self.status == "ended":
+                raise Refused("session_over", "the session has ended")
+            wanted = kind == "group_paused"
+            if progress.paused == wanted:
+                word = "paused" if wanted else "playing"
+                raise Refused(f"already_{word}", f"group {body['group'] + 1} is already {word}")
         elif kind == "harvest_submitted":
             self._check_harvest(body)
+        elif kind == "harvest_corrected":
+            self._check_correction(body)
         elif kind == "round_closed":
             self._check_open_round(body, decided_ok=True)
         elif kind == "block_opened":
@@ -147,30 +173,67 @@ class SessionState:
             raise Refused("block_over", f"block {state.block + 1} is over; wait for the next block")
         current = (state.block + 1, state.round + 1)
         asked_for = (body["block"], body["round"])
+        if asked_for < current:
+            raise Refused(
+                "round_resolved",
+                f"block {asked_for[0]}, round {asked_for[1]} is already resolved and cannot change; "
+                f"the open round is block {current[0]}, round {current[1]}",
+            )
         if asked_for != current:
             raise Refused(
                 "wrong_round",
-                f"that decision is for block {asked_for[0]}, round {asked_for[1]}; "
+                f"block {asked_for[0]}, round {asked_for[1]} is not open yet; "
                 f"the open round is block {current[0]}, round {current[1]}",
             )
         return progress
 
-    def _check_harvest(self, body: dict[str, Any]) -> None:
-        progress = self._check_open_round(body, decided_ok=False)
-        if self.status == "paused":
-            raise Refused("paused", "the session is paused; wait until the facilitator resumes it")
-        seat, harvest, cap = body["seat"], body["harvest"], self.study.resource.max_harvest
+    def _check_seat(self, seat: int) -> None:
         if not 0 <= seat < self.study.seats:
             raise Refused("unknown_seat", f"seat {seat + 1} does not exist; allowed: 1..{self.study.seats}")
+
+    def _check_value(self, harvest: Any) -> None:
+        cap = self.study.resource.max_harvest
         if isinstance(harvest, bool) or not isinstance(harvest, int) or not 0 <= harvest <= cap:
             raise Refused(
                 "invalid_harvest",
                 f"harvest {harvest!r} is not allowed; allowed: a whole number from 0 to {cap}",
             )
+
+    def _check_harvest(self, body: dict[str, Any]) -> None:
+        progress = self._check_open_round(body, decided_ok=False)
+        if self.status == "paused":
+            raise Refused("paused", "the session is paused; wait until the facilitator resumes it")
         if body["source"] not in SOURCES:
             raise Refused("bad_request", f"source {body['source']!r}; allowed: {', '.join(SOURCES)}")
+        if progress.paused and body["source"] != "console":
+            raise Refused("group_paused", "your group is paused; wait until the facilitator resumes it")
+        seat = body["seat"]
+        self._check_seat(seat)
+        self._check_value(body["harvest"])
         if seat in progress.pending:
-            raise Refused("already_decided", "this seat has already decided in this round")
+            raise Refused(
+                "already_decided",
+                f"seat {seat + 1} has already decided in this round "
+                f"({progress.pending[seat].harvest}); a wrong entry is fixed with a correction",
+            )
+
+    def _check_correction(self, body: dict[str, Any]) -> None:
+        progress = self._check_open_round(body, decided_ok=True)
+        seat = body["seat"]
+        self._check_seat(seat)
+        self._check_value(body["harvest"])
+        current = progress.pending.get(seat)
+        if current is None:
+            raise Refused(
+                "nothing_to_correct",
+                f"seat {seat + 1} has not decided in this round; enter its harvest instead",
+            )
+        if current.event_id != body["supersedes"]:
+            raise Refused(
+                "stale_entry",
+                f"entry {body['supersedes']} is not the current entry of seat {seat + 1} "
+                f"(that is entry {current.event_id}: {current.harvest}); look again and retry",
+            )
 
     # -- applying (events already checked or read back from the log) ----------
 
@@ -178,6 +241,19 @@ class SessionState:
         """Fold one event into the state; returns the rounds it resolved."""
         self.seq = seq
         resolved: list[RoundOutcome] = []
+        if kind == "harvest_corrected":
+            g, seat = body["group"], body["seat"]
+            self.groups[g].pending[seat] = Decision(body["harvest"], "console", decision_id, seq)
+            if decision_id is not None:
+                self.receipts[decision_id] = Receipt(g, seat, body["block"], body["round"], body["harvest"])
+            return resolved
+        if kind in GROUP_KINDS:
+            self.groups[body["group"]].paused = kind == "group_paused"
+            return resolved
+        if kind == "seat_released":
+            self.devices[(body["group"], body["seat"])] = []
+            self.released.add((body["group"], body["seat"]))
+            return resolved
         if kind == "session_started":
             self.status = "running"
         elif kind == "session_paused":
@@ -193,7 +269,7 @@ class SessionState:
         elif kind == "harvest_submitted":
             g, seat = body["group"], body["seat"]
             progress = self.groups[g]
-            progress.pending[seat] = Decision(body["harvest"], body["source"], decision_id)
+            progress.pending[seat] = Decision(body["harvest"], body["source"], decision_id, seq)
             if decision_id is not None:
                 self.receipts[decision_id] = Receipt(g, seat, body["block"], body["round"], body["harvest"])
             if len(progress.pending) == self.study.seats:
@@ -236,7 +312,8 @@ class SessionState:
         mine = progress.pending.get(seat)
         return {
             "seq": self.seq,
-            "status": self.status,
+            # A paused group looks like a paused session to its phones: they wait.
+            "status": "paused" if progress.paused and self.status == "running" else self.status,
             "waiting_for_block": progress.waiting,
             "decided": mine is not None,
             "my_harvest": None if mine is None else mine.harvest,

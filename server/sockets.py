@@ -17,15 +17,27 @@ from collections.abc import Callable
 from dataclasses import dataclass
 
 from flask import current_app, request, session
-from flask_socketio import ConnectionRefusedError, emit, join_room
+from flask_socketio import ConnectionRefusedError, disconnect, emit, join_room
 from pydantic import BaseModel, ValidationError
 
 from . import socketio
 from .live import LiveSession, Registry
-from .messages import ConsoleAuth, Empty, GroupTarget, HarvestRequest, PhoneAuth
+from .messages import (
+    ConsoleAuth,
+    ConsoleCorrection,
+    ConsoleHarvest,
+    Empty,
+    GroupAction,
+    GroupTarget,
+    HarvestRequest,
+    PaperSlips,
+    PhoneAuth,
+    SeatAction,
+)
 from .refusals import Refused, from_validation_error
 
-FLOOD_EVENTS = 20  # per connection, within FLOOD_SECONDS; a person taps far less
+FLOOD_EVENTS = 20  # per phone connection, within FLOOD_SECONDS; a person taps far less
+CONSOLE_FLOOD_EVENTS = 60  # a facilitator typing slips seat by seat clicks more often
 FLOOD_SECONDS = 10.0
 
 
@@ -73,7 +85,14 @@ def send_everyone(live: LiveSession) -> None:
 
 
 def send_console(live: LiveSession) -> None:
-    socketio.emit("console_state", live.console_snapshot(), to=console_room(live.session_id))
+    snapshot = live.console_snapshot(registry().online())
+    socketio.emit("console_state", snapshot, to=console_room(live.session_id))
+
+
+def flood_limit(role: str) -> int:
+    """Messages one connection may send within FLOOD_SECONDS (``EBBTIDE_FLOOD_EVENTS`` overrides)."""
+    limit = current_app.config.get("EBBTIDE_FLOOD_EVENTS") or FLOOD_EVENTS
+    return limit * CONSOLE_FLOOD_EVENTS // FLOOD_EVENTS if role == "console" else limit
 
 
 def _flooding(conn: Connection) -> bool:
@@ -82,7 +101,18 @@ def _flooding(conn: Connection) -> bool:
     while recent and now - recent[0] > FLOOD_SECONDS:
         recent.popleft()
     recent.append(now)
-    return len(recent) > FLOOD_EVENTS
+    return len(recent) > flood_limit(conn.role)
+
+
+def _admit(event: str, role: str | None) -> Connection:
+    """The connection behind this request, if it may send ``event`` now; else ``Refused``."""
+    conn = registry().connection(request.sid)
+    if conn is None or (role is not None and conn.role != role):
+        raise Refused("not_allowed", f"{event!r} is not allowed on this connection")
+    if _flooding(conn):
+        limit = flood_limit(conn.role)
+        raise Refused("too_many", f"more than {limit} messages in {FLOOD_SECONDS:g} s; slow down")
+    return conn
 
 
 def edge(event: str, model: type[BaseModel], role: str) -> Callable:
@@ -92,13 +122,7 @@ def edge(event: str, model: type[BaseModel], role: str) -> Callable:
         @functools.wraps(handler)
         def inner(data=None):
             try:
-                conn = registry().connection(request.sid)
-                if conn is None or conn.role != role:
-                    raise Refused("not_allowed", f"{event!r} is not allowed on this connection")
-                if _flooding(conn):
-                    raise Refused(
-                        "too_many", f"more than {FLOOD_EVENTS} messages in {FLOOD_SECONDS:g} s; slow down"
-                    )
+                conn = _admit(event, role)
                 message = model.model_validate({} if data is None else data)
                 return handler(conn, registry().current, message)
             except ValidationError as exc:
@@ -144,8 +168,16 @@ def on_connect(auth=None):
     if found is None:
         raise ConnectionRefusedError("this seat card does not belong to the session being played")
     live, key = found
-    if phone.device not in live.state.devices.get((key.group, key.seat), []):
-        live.submit("seat_claimed", {"group": key.group, "seat": key.seat, "device": phone.device})
+    seat = (key.group, key.seat)
+    if phone.device not in live.state.devices.get(seat, []):
+        if seat in live.state.released and not phone.fresh:
+            # A device the facilitator let go of comes back from its storage: it needs the card again.
+            raise ConnectionRefusedError(
+                "the facilitator released this seat; scan your seat card again to take it back",
+                {"code": "seat_released"},
+            )
+        live.submit("seat_claimed", {"group": key.group, "seat": key.seat, "device": phone.device,
+                                     "via": "card" if phone.fresh else "stored"})
     reg.remember(
         request.sid, Connection("phone", live.session_id, key.group, key.seat, phone.agent, recent=deque())
     )
@@ -158,12 +190,36 @@ def on_connect(auth=None):
 @socketio.on("disconnect")
 def on_disconnect(*_reason):
     """Forget the connection; the seat stays claimed and its decisions stay stored."""
-    registry().forget(request.sid)
+    reg = registry()
+    conn = reg.connection(request.sid)
+    reg.forget(request.sid)
+    if conn is not None and conn.role == "phone" and reg.current_id == conn.session_id:
+        send_console(reg.current)  # the console shows which phones are offline
+
+
+@socketio.on("*")
+def on_unknown(event, data=None):
+    """Any event nobody handles: refused, saying which events exist."""
+    try:
+        _admit(str(event)[:40], None)
+        known = sorted(name for name in socketio.server.handlers.get("/", {}) if name not in RESERVED)
+        raise Refused("unknown_event", f"unknown event {str(event)[:40]!r}; allowed: {', '.join(known)}")
+    except Refused as refusal:
+        body = refusal.as_event(str(event)[:40])
+        emit("problem", body)
+        return body
+
+
+RESERVED = frozenset({"connect", "disconnect", "*"})
 
 
 @edge("harvest", HarvestRequest, role="phone")
 def on_harvest(conn: Connection, live: LiveSession, msg: HarvestRequest):
     """A seat's harvest: stored (committed) before it is acknowledged."""
+    own = (conn.group + 1, conn.seat + 1)
+    if (msg.group or own[0], msg.seat or own[1]) != own:
+        raise Refused("not_your_seat", f"this phone holds group {own[0]}, seat {own[1]}; "
+                      "a phone decides only for its own seat")
     body = {
         "group": conn.group, "seat": conn.seat, "block": msg.block, "round": msg.round,
         "harvest": msg.harvest, "source": conn.agent,
@@ -243,3 +299,93 @@ def on_open_block(conn: Connection, live: LiveSession, msg: GroupTarget):
         send_group(live, g)
     send_console(live)
     return {"ok": True, "seq": live.state.seq}
+
+
+# -- console fall-backs: a dead phone, paper slips, a paused group, a correction, a released seat --
+
+
+def _console_body(msg, **extra) -> dict:
+    body = {"group": msg.group - 1, "block": msg.block, "round": msg.round, "source": "console",
+            "by": msg.by or "console"}
+    body.update(extra)
+    return body
+
+
+def _after_group_change(live: LiveSession, group: int, change) -> None:
+    if change.is_new:
+        send_group(live, group)
+        send_console(live)
+
+
+def _check_group(live: LiveSession, group: int) -> None:
+    if group > live.study.groups.count:
+        count = live.study.groups.count
+        raise Refused("unknown_group", f"group {group} does not exist; allowed: 1..{count}")
+
+
+@edge("console_enter", ConsoleHarvest, role="console")
+def on_console_enter(conn: Connection, live: LiveSession, msg: ConsoleHarvest):
+    """Facilitator: enter a harvest for a seat whose phone died (source ``console``)."""
+    _check_group(live, msg.group)
+    body = _console_body(msg, seat=msg.seat - 1, harvest=msg.harvest)
+    change = live.submit("harvest_submitted", body, decision_id=msg.decision_id)
+    _after_group_change(live, msg.group - 1, change)
+    return {"ok": True, "seq": change.seq, "repeated": not change.is_new}
+
+
+@edge("console_correct", ConsoleCorrection, role="console")
+def on_console_correct(conn: Connection, live: LiveSession, msg: ConsoleCorrection):
+    """Facilitator: replace a seat's entry of the open round with a new one (the old stays logged)."""
+    _check_group(live, msg.group)
+    body = _console_body(msg, seat=msg.seat - 1, harvest=msg.harvest, supersedes=msg.supersedes)
+    change = live.submit("harvest_corrected", body, decision_id=msg.decision_id)
+    _after_group_change(live, msg.group - 1, change)
+    return {"ok": True, "seq": change.seq, "repeated": not change.is_new}
+
+
+@edge("console_slips", PaperSlips, role="console")
+def on_console_slips(conn: Connection, live: LiveSession, msg: PaperSlips):
+    """Facilitator: a whole group's round from paper slips, stored together or not at all."""
+    _check_group(live, msg.group)
+    if len(msg.harvests) != live.study.seats:
+        raise Refused("bad_request", f"{len(msg.harvests)} slips given; allowed: one per seat, "
+                      f"{live.study.seats} (leave a seat empty to keep it as it is)")
+    requests = [
+        ("harvest_submitted", _console_body(msg, seat=s, harvest=h, slip=True), f"{msg.batch_id}-s{s + 1}")
+        for s, h in enumerate(msg.harvests) if h is not None
+    ]
+    if not requests:
+        raise Refused("nothing_to_do", "every slip is empty; type at least one harvest")
+    change = live.submit_many(requests)
+    _after_group_change(live, msg.group - 1, change)
+    return {"ok": True, "seq": change.seq, "repeated": not change.is_new, "entered": len(requests)}
+
+
+def _group_toggle(kind: str) -> Callable:
+    def handler(conn: Connection, live: LiveSession, msg: GroupAction):
+        _check_group(live, msg.group)
+        change = live.submit(kind, {"group": msg.group - 1, "by": msg.by or "console"})
+        _after_group_change(live, msg.group - 1, change)
+        return {"ok": True, "seq": change.seq}
+
+    handler.__doc__ = f"Facilitator: record {kind} for one group."
+    return handler
+
+
+edge("console_pause_group", GroupAction, role="console")(_group_toggle("group_paused"))
+edge("console_resume_group", GroupAction, role="console")(_group_toggle("group_resumed"))
+
+
+@edge("console_release_seat", SeatAction, role="console")
+def on_console_release_seat(conn: Connection, live: LiveSession, msg: SeatAction):
+    """Facilitator: let go of every device on a seat; the next one must present the card again."""
+    _check_group(live, msg.group)
+    group, seat = msg.group - 1, msg.seat - 1
+    change = live.submit("seat_released", {"group": group, "seat": seat, "by": msg.by or "console"})
+    notice = Refused("seat_released", "the facilitator released this seat; "
+                     "scan your seat card again to take it back").as_event("seat_released")
+    socketio.emit("seat_released", notice, to=seat_room(live.session_id, group, seat))
+    for sid in registry().seat_sids(group, seat):
+        disconnect(sid=sid, namespace="/")
+    send_console(live)
+    return {"ok": True, "seq": change.seq}

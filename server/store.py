@@ -12,6 +12,8 @@ from __future__ import annotations
 import json
 import sqlite3
 import threading
+from collections.abc import Iterator
+from contextlib import contextmanager
 from dataclasses import dataclass
 from datetime import UTC, datetime
 from pathlib import Path
@@ -152,14 +154,24 @@ class Store:
         An event whose ``decision_id`` is already stored is not written again:
         the first copy comes back with ``is_new`` False.
         """
+        with self.atomic(session_id) as writer:
+            return writer.append(kind, body, decision_id)
+
+    @contextmanager
+    def atomic(self, session_id: str) -> Iterator[Writer]:
+        """One transaction: every event appended through the writer is committed together, or none.
+
+        A decision and the round it resolves are stored at once, so a crash
+        never leaves a half-told round in the log.
+        """
         with self._lock:
-            if decision_id is not None:
-                earlier = self._event_by_decision(session_id, decision_id)
-                if earlier is not None:
-                    return earlier, False
-            with self.db.conn:
-                self.db.conn.execute("BEGIN IMMEDIATE")
-                return self._insert_event(session_id, kind, body, decision_id), True
+            self.db.conn.execute("BEGIN IMMEDIATE")
+            try:
+                yield Writer(self, session_id)
+            except BaseException:
+                self.db.conn.execute("ROLLBACK")
+                raise
+            self.db.conn.execute("COMMIT")
 
     def _insert_event(
         self, session_id: str, kind: str, body: dict[str, Any], decision_id: str | None
@@ -216,6 +228,24 @@ class Store:
                 self.db.query("SELECT * FROM events WHERE session_id = ? ORDER BY id", (session_id,))
             )
         return [_event(row) for row in rows]
+
+
+class Writer:
+    """Appends events inside one ``Store.atomic`` transaction."""
+
+    def __init__(self, store: Store, session_id: str):
+        self._store = store
+        self._session_id = session_id
+
+    def append(
+        self, kind: str, body: dict[str, Any], decision_id: str | None = None
+    ) -> tuple[Event, bool]:
+        """Append one event; a stored ``decision_id`` returns its first copy with ``is_new`` False."""
+        if decision_id is not None:
+            earlier = self._store._event_by_decision(self._session_id, decision_id)
+            if earlier is not None:
+                return earlier, False
+        return self._store._insert_event(self._session_id, kind, body, decision_id), True
 
 
 def _event(row: dict) -> Event:
