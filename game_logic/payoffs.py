@@ -33,7 +33,7 @@ def payment(points_total: float, spec: PaymentSpec) -> Decimal:
     return (raw / unit).to_integral_value(rounding=ROUND_CEILING) * unit
 
 
-def denominations_needed(amounts: list[Decimal], notes: list[float]) -> dict[Decimal, int]:
+def denominations_needed(amounts: list[Decimal], notes: list[float] | list[Decimal]) -> dict[Decimal, int]:
     """How many of each note or coin to bring to pay every amount exactly (greedy).
 
     Greedy change-making is optimal for the usual 1-2-5 note series; the payment
@@ -50,3 +50,33 @@ def denominations_needed(amounts: list[Decimal], notes: list[float]) -> dict[Dec
         if left != 0:
             raise ValueError(f"{amount} cannot be paid with notes {notes}")
     return counts
+
+
+# The 1-2-5 series most currencies' notes and coins follow (common practice, no source).
+_SERIES = (1, 2, 5)
+_SERIES_SPAN = 200  # the default list stops at 200 times the smallest unit
+
+
+def default_denominations(round_up_to: float) -> list[Decimal]:
+    """Notes and coins assumed when the study lists none: ``round_up_to`` and the
+    1-2-5 series values above it that are whole multiples of it, up to 200 times it.
+    """
+    unit = _dec(round_up_to)
+    values = {unit}
+    exponent = unit.adjusted() - 1
+    while True:
+        scale = Decimal(10) ** exponent
+        candidates = [Decimal(k) * scale for k in _SERIES]
+        if min(candidates) > unit * _SERIES_SPAN:
+            break
+        values.update(v for v in candidates if unit < v <= unit * _SERIES_SPAN and v % unit == 0)
+        exponent += 1
+    # Plain notation (10, not 1E+1): these values are printed on the payment sheet.
+    return sorted((Decimal(format(v, 'f')) for v in values), reverse=True)
+
+
+def packing_denominations(spec: PaymentSpec) -> list[Decimal]:
+    """The study's notes and coins, largest first, or the default series."""
+    if spec.denominations is not None:
+        return sorted((_dec(v) for v in spec.denominations), reverse=True)
+    return default_denominations(spec.round_up_to)

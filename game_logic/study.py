@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import hashlib
 import tomllib
+from decimal import Decimal
 from pathlib import Path
 from typing import Annotated, Literal
 
@@ -221,6 +222,25 @@ class PaymentSpec(_Frozen):
     exchange_rate: Annotated[float, Field(ge=0)] = 1
     show_up_fee: Annotated[float, Field(ge=0)] = 0
     round_up_to: Annotated[float, Field(gt=0)] = 1
+    # Notes and coins the researcher will carry, for the payment sheet's packing list;
+    # when absent, a 1-2-5 series from round_up_to is assumed (game_logic.payoffs).
+    denominations: Annotated[tuple[PositiveFloat, ...], Field(min_length=1, max_length=20)] | None = None
+
+    @model_validator(mode="after")
+    def _denominations_pay_every_amount(self):
+        if self.denominations is None:
+            return self
+        values = [Decimal(str(v)) for v in self.denominations]
+        if len(set(values)) != len(values):
+            raise ValueError(f"payment.denominations {list(self.denominations)} lists a value twice")
+        smallest = min(values)
+        if Decimal(str(self.round_up_to)) % smallest != 0:
+            raise ValueError(
+                f"payment.denominations {list(self.denominations)} cannot pay every amount: "
+                f"payment.round_up_to ({self.round_up_to:g}) must be a whole multiple of the "
+                f"smallest denomination ({smallest})"
+            )
+        return self
 
 
 class Study(_Frozen):

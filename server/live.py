@@ -20,6 +20,7 @@ from exports.tables import group_code, seat_code
 from game_logic.rounds import RoundOutcome
 from game_logic.study import Study, parse_study
 
+from .payment_sheet import PaymentSheet, payment_sheet
 from .refusals import Refused
 from .replay import Receipt, SessionState, replay
 from .store import SeatKey, SessionRecord, Store
@@ -118,6 +119,10 @@ class LiveSession:
     def seat_snapshot(self, group: int, seat: int) -> dict[str, Any]:
         with self._lock:
             return self.state.seat_snapshot(group, seat)
+
+    def payment_sheet(self) -> PaymentSheet:
+        with self._lock:
+            return payment_sheet(self.state, self.keys)
 
     def console_snapshot(self, online: dict[tuple[int, int], int] | None = None) -> dict[str, Any]:
         with self._lock:

@@ -191,12 +191,13 @@ class SessionState:
         if not 0 <= seat < self.study.seats:
             raise Refused("unknown_seat", f"seat {seat + 1} does not exist; allowed: 1..{self.study.seats}")
 
-    def _check_value(self, harvest: Any) -> None:
+    def _check_value(self, seat: int, harvest: Any) -> None:
         cap = self.study.resource.max_harvest
         if isinstance(harvest, bool) or not isinstance(harvest, int) or not 0 <= harvest <= cap:
             raise Refused(
                 "invalid_harvest",
-                f"harvest {harvest!r} is not allowed; allowed: a whole number from 0 to {cap}",
+                f"seat {seat + 1}: harvest {harvest!r} is not allowed; "
+                f"allowed: a whole number from 0 to {cap}",
             )
 
     def _check_harvest(self, body: dict[str, Any]) -> None:
@@ -209,7 +210,7 @@ class SessionState:
             raise Refused("group_paused", "your group is paused; wait until the facilitator resumes it")
         seat = body["seat"]
         self._check_seat(seat)
-        self._check_value(body["harvest"])
+        self._check_value(seat, body["harvest"])
         if seat in progress.pending:
             raise Refused(
                 "already_decided",
@@ -221,7 +222,7 @@ class SessionState:
         progress = self._check_open_round(body, decided_ok=True)
         seat = body["seat"]
         self._check_seat(seat)
-        self._check_value(body["harvest"])
+        self._check_value(seat, body["harvest"])
         current = progress.pending.get(seat)
         if current is None:
             raise Refused(

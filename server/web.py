@@ -26,6 +26,7 @@ from flask_babel import gettext as _
 
 from .export import export_session
 from .live import SHORT_CODE_ALPHABET, SHORT_CODE_LENGTH, LiveSession, Registry
+from .payment_sheet import money, sheet_csv
 from .ratelimit import FailureLimiter
 
 bp = Blueprint("web", __name__)
@@ -93,6 +94,7 @@ def phone_strings() -> dict[str, str]:
         "trend_rising": _("rising"),
         "problem": _("Not accepted: %(message)s"),
         "unknown_seat": _("This seat card is not part of the game being played. Ask the facilitator."),
+        "seat_released": _("The facilitator released this seat. If it is yours, scan your seat card again."),
     }
 
 
@@ -107,7 +109,9 @@ def safety_headers(response):
     response.headers.setdefault("X-Content-Type-Options", "nosniff")
     response.headers.setdefault("Referrer-Policy", "no-referrer")
     response.headers.setdefault("X-Frame-Options", "DENY")
-    if request.endpoint and request.endpoint.startswith("web.") and "secret" in (request.view_args or {}):
+    # Seat links and console pages carry secrets or hidden values: never kept in a cache.
+    carries_secret = "secret" in (request.view_args or {}) or request.path.startswith("/console")
+    if (request.endpoint or "").startswith("web.") and carries_secret:
         response.headers["Cache-Control"] = "no-store"
     lang = request.args.get("lang")
     if lang and registry().current_id and lang in registry().current.study.session.languages:
@@ -270,3 +274,25 @@ def export_zip():
     buffer.seek(0)
     return send_file(buffer, mimetype="application/zip", as_attachment=True,
                      download_name=f"{live.session_id}.zip")
+
+
+@bp.get("/console/payments")
+@console_required
+def payments():
+    """Printable payment sheet: points and cash per seat, per group, in total, and the notes to bring."""
+    live = live_session()
+    sheet = live.payment_sheet()
+    return render_template("payments.html", title=live.study.session.title, session_id=live.session_id,
+                           sheet=sheet, money=money, spec=live.study.payment)
+
+
+@bp.get("/console/payments.csv")
+@console_required
+def payments_csv():
+    """The payment sheet as CSV."""
+    live = live_session()
+    sheet = live.payment_sheet()
+    response = current_app.make_response(sheet_csv(sheet))
+    response.mimetype = "text/csv"
+    response.headers["Content-Disposition"] = f'attachment; filename="{live.session_id}-payments.csv"'
+    return response

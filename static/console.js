@@ -25,6 +25,8 @@
 
   var socket = io({ auth: { role: "console" } });
   var state = null;
+  // The fall-back section (console-fallback.js) shares this connection.
+  window.ebbtideConsole = { socket: socket };
 
   socket.on("connect", function () { $("connection").textContent = S.connected; });
   socket.on("disconnect", function () { $("connection").textContent = S.disconnected; });

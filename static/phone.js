@@ -19,6 +19,7 @@
 
   // sessionStorage first, so that browser tabs used as phones in a rehearsal keep their own seats.
   var secret = document.body.dataset.secret;
+  var fresh = !!secret;  // straight from the seat card: may take back a seat the facilitator released
   if (secret) {
     sessionStorage.setItem("ebbtide.secret", secret);
     localStorage.setItem("ebbtide.secret", secret);
@@ -53,7 +54,23 @@
     else localStorage.removeItem(pendingKey);
   }
 
-  var socket = io({ auth: { secret: secret, device: device } });
+  var socket = io({ auth: { secret: secret, device: device, fresh: fresh } });
+
+  // The facilitator released this seat: forget it here; the card's link or code takes it back.
+  function released(p) {
+    sessionStorage.removeItem("ebbtide.secret");
+    localStorage.removeItem("ebbtide.secret");
+    setPending(null);
+    socket.disconnect();
+    $("game").hidden = true;
+    $("join").hidden = false;
+    var note = document.createElement("p");
+    note.className = "notice notice-problem";
+    note.setAttribute("role", "alert");
+    note.textContent = S.seat_released || p.message;
+    $("join").insertBefore(note, $("join").firstChild);
+  }
+  socket.on("seat_released", released);
 
   function send(decision) {
     socket.timeout(8000).emit("harvest", decision, function (err, ack) {
@@ -72,6 +89,7 @@
   });
   socket.on("disconnect", function () { $("connection").textContent = S.offline; });
   socket.on("connect_error", function (err) {
+    if (err && err.data && err.data.code === "seat_released") return released(err);
     $("connection").textContent = err && /seat card/.test(err.message) ? S.unknown_seat : S.offline;
   });
   socket.on("snapshot", function (s) {
