@@ -120,9 +120,12 @@ def edge(event: str, model: type[BaseModel], role: str) -> Callable:
 
     def wrap(handler: Callable) -> Callable:
         @functools.wraps(handler)
-        def inner(data=None):
+        def inner(*args):
             try:
                 conn = _admit(event, role)
+                if len(args) > 1:
+                    raise Refused("bad_request", f"{len(args)} arguments sent; allowed: one message object")
+                data = args[0] if args else None
                 message = model.model_validate({} if data is None else data)
                 return handler(conn, registry().current, message)
             except ValidationError as exc:
@@ -198,7 +201,7 @@ def on_disconnect(*_reason):
 
 
 @socketio.on("*")
-def on_unknown(event, data=None):
+def on_unknown(event, *_args):
     """Any event nobody handles: refused, saying which events exist."""
     try:
         _admit(str(event)[:40], None)

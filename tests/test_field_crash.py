@@ -41,7 +41,8 @@ class PlayingPhone(threading.Thread):
     def run(self) -> None:
         deadline = time.monotonic() + 30  # bounded even if nothing kills the server
         try:
-            phone = connect_phone(self.url, self.key.secret, device=f"device-{self.key.group}-{self.key.seat}")
+            device = f"device-{self.key.group}-{self.key.seat}"
+            phone = connect_phone(self.url, self.key.secret, device=device)
         except Exception:
             return
         try:
@@ -50,7 +51,8 @@ class PlayingPhone(threading.Thread):
                 self._send(phone, self.pending[seat])
             while time.monotonic() < deadline and phone.client.connected:
                 snap = max(phone.snapshots, key=lambda s: s["seq"], default=None)
-                if snap is None or snap["status"] != "running" or snap["decided"] or snap["view"]["block_over"]:
+                idle = snap is None or snap["status"] != "running" or snap["decided"]
+                if idle or snap["view"]["block_over"]:
                     time.sleep(0.02)
                     continue
                 view = snap["view"]
@@ -138,7 +140,8 @@ def test_sigkill_at_random_moments_loses_no_acknowledged_decision(tmp_path):
         body = harvests[decision_id]
         assert (body["group"], body["seat"], body["block"], body["round"], body["harvest"]) == (
             g, s, block, round_number, harvest)
-    assert len({(b["group"], b["seat"], b["round"]) for b in harvests.values()}) == len(harvests)  # none twice
+    seat_rounds = {(b["group"], b["seat"], b["round"]) for b in harvests.values()}
+    assert len(seat_rounds) == len(harvests)  # no seat decided twice in a round
 
     expected = independent_rounds(study, SEED, [e.body for e in events if e.kind == "harvest_submitted"])
     audits = {(e.body["group"], e.body["round"]): e.body for e in events if e.kind == "round_resolved"}
