@@ -216,6 +216,11 @@ def on_unknown(event, *_args):
 RESERVED = frozenset({"connect", "disconnect", "*"})
 
 
+def _session_just_ended(live: LiveSession, change) -> bool:
+    """The last group's last round ends the session: every phone must hear it, not just that group."""
+    return bool(change.resolved) and live.state.status == "ended"
+
+
 @edge("harvest", HarvestRequest, role="phone")
 def on_harvest(conn: Connection, live: LiveSession, msg: HarvestRequest):
     """A seat's harvest: stored (committed) before it is acknowledged."""
@@ -229,7 +234,9 @@ def on_harvest(conn: Connection, live: LiveSession, msg: HarvestRequest):
     }
     change = live.submit("harvest_submitted", body, decision_id=msg.decision_id)
     if change.is_new:
-        if change.resolved:
+        if _session_just_ended(live, change):
+            send_everyone(live)
+        elif change.resolved:
             send_group(live, conn.group)
         else:
             send_seat(live, conn.group, conn.seat)
@@ -290,6 +297,8 @@ def on_close_round(conn: Connection, live: LiveSession, msg: GroupTarget):
         state = live.state.groups[g].state
         live.submit("round_closed", {"group": g, "block": state.block + 1, "round": state.round + 1})
         send_group(live, g)
+    if live.state.status == "ended":
+        send_everyone(live)  # the last round closed ended the session: every phone hears it
     send_console(live)
     return {"ok": True, "seq": live.state.seq}
 
@@ -316,7 +325,10 @@ def _console_body(msg, **extra) -> dict:
 
 def _after_group_change(live: LiveSession, group: int, change) -> None:
     if change.is_new:
-        send_group(live, group)
+        if _session_just_ended(live, change):
+            send_everyone(live)
+        else:
+            send_group(live, group)
         send_console(live)
 
 
