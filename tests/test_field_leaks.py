@@ -193,7 +193,8 @@ def test_no_hidden_value_reaches_a_phone_over_a_session_with_every_treatment(who
                 if last:
                     assert set(last) == {"round", "asked", "taken", "points", "group_total", "remaining",
                                          "regrowth", "stock_after", "rationed"}
-                    assert last["asked"] == harvest_of(g, s, last["round"]) != harvest_of(g, other, last["round"])
+                    mine, theirs = harvest_of(g, s, last["round"]), harvest_of(g, other, last["round"])
+                    assert last["asked"] == mine != theirs
 
 
 def test_participant_pages_carry_no_hidden_value(start_server):
