@@ -6,6 +6,8 @@
   var S = JSON.parse(document.getElementById("fallback-strings").textContent);
   var $ = function (id) { return document.getElementById(id); };
   var socket = window.ebbtideConsole.socket;
+  window.ebbtideConsole.fallbackEvents = ["console_enter", "console_correct", "console_slips",
+    "console_pause_group", "console_resume_group", "console_release_seat"];
   var state = null;
   var shownKey = "";  // the table is rebuilt only when the group or its round changes, keeping typed values
 

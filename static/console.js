@@ -37,6 +37,8 @@
     render();
   });
   socket.on("problem", function (p) {
+    var fallback = window.ebbtideConsole.fallbackEvents || [];
+    if (fallback.indexOf(p.event) >= 0) return;  // the fall-back section shows its own refusals
     $("console-problem").textContent = fmt("refused", { message: p.message });
     $("console-problem").hidden = false;
   });
@@ -72,7 +74,8 @@
     var card = el("section", null, "card group");
     card.dataset.group = g.group;
     card.appendChild(el("h2", S.group + " " + g.group_id));
-    var line = g.session_over ? S.group_done : g.waiting_for_block ? S.waiting_block : S.playing;
+    var line = g.session_over ? S.group_done : g.waiting_for_block ? S.waiting_block :
+      g.paused ? S.group_paused : S.playing;
     card.appendChild(el("p", S.block + " " + g.block + "/" + state.blocks + " (" + g.block_name + ", " +
       g.treatment + ") · " + S.round + " " + g.round + " · " + S.stock + " " + g.stock + " · " + line, "state-line"));
 
