@@ -20,6 +20,7 @@ from exports.tables import group_code, seat_code
 from game_logic.rounds import RoundOutcome
 from game_logic.study import Study, parse_study
 
+from .phone_view import add_to_console_snapshot, add_to_seat_snapshot
 from .refusals import Refused
 from .replay import Receipt, SessionState, replay
 from .store import SeatKey, SessionRecord, Store
@@ -92,11 +93,13 @@ class LiveSession:
 
     def seat_snapshot(self, group: int, seat: int) -> dict[str, Any]:
         with self._lock:
-            return self.state.seat_snapshot(group, seat)
+            # teach: the stock picture, talk countdown and revealed debrief (server/phone_view.py)
+            return add_to_seat_snapshot(self, group, seat, self.state.seat_snapshot(group, seat))
 
     def console_snapshot(self) -> dict[str, Any]:
         with self._lock:
-            return console_snapshot(self.state, self.keys)
+            # teach: small gauges, talk countdowns, the signal's parts (server/phone_view.py)
+            return add_to_console_snapshot(self, console_snapshot(self.state, self.keys))
 
 
 def _audit(outcome: RoundOutcome) -> dict[str, Any]:

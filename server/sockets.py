@@ -23,7 +23,9 @@ from pydantic import BaseModel, ValidationError
 from . import socketio
 from .live import LiveSession, Registry
 from .messages import ConsoleAuth, Empty, GroupTarget, HarvestRequest, PhoneAuth
+from .phone_view import remember_language
 from .refusals import Refused, from_validation_error
+from .talk import refuse_during_talk, register_console_events
 
 FLOOD_EVENTS = 20  # per connection, within FLOOD_SECONDS; a person taps far less
 FLOOD_SECONDS = 10.0
@@ -151,6 +153,7 @@ def on_connect(auth=None):
     )
     join_room(group_room(live.session_id, key.group))
     join_room(seat_room(live.session_id, key.group, key.seat))
+    remember_language(live, key.group, key.seat)  # teach: the seat's words follow its phone
     emit("snapshot", live.seat_snapshot(key.group, key.seat))
     send_console(live)
 
@@ -168,6 +171,8 @@ def on_harvest(conn: Connection, live: LiveSession, msg: HarvestRequest):
         "group": conn.group, "seat": conn.seat, "block": msg.block, "round": msg.round,
         "harvest": msg.harvest, "source": conn.agent,
     }
+    if msg.decision_id not in live.state.receipts:  # teach: no choices while the group talks
+        refuse_during_talk(live, conn.group, msg.block, msg.round)
     change = live.submit("harvest_submitted", body, decision_id=msg.decision_id)
     if change.is_new:
         if change.resolved:
@@ -243,3 +248,7 @@ def on_open_block(conn: Connection, live: LiveSession, msg: GroupTarget):
         send_group(live, g)
     send_console(live)
     return {"ok": True, "seq": live.state.seq}
+
+
+# teach: the console extends or ends a group's talk pause (server/talk.py)
+register_console_events(edge, send_group, send_console)
