@@ -31,8 +31,6 @@ WHAT_IF_DASHES = {1: "12 6", 2: "3 5"}
 DEFAULT_LABELS = {
     "stock": "Stock",
     "round": "Round",
-    "start": "start",
-    "end": "end",
     "danger_level": "Danger level {level}",
     "recovery_level": "Recovery {level}",
     "crossed": "Crossed in round {round}",

@@ -48,9 +48,19 @@ def chart_labels() -> dict[str, str]:
         "degraded": _("Degraded"),
         "less": _("{k} less each"),
         "title": _("Stock path of part {block}"),
-        "start": _("start"),
-        "end": _("end"),
     }
+
+
+def treatment_words(treatment: str) -> str:
+    """What the group was told, in plain words (the handout is for the community)."""
+    return {
+        "none": _("told nothing about a danger level"),
+        "vague": _("told that a danger level exists"),
+        "range": _("told a range for the danger level"),
+        "exact": _("told the danger level"),
+        "risk": _("told the danger level and the chance of collapse"),
+        "signal": _("shown a health reading of the stock"),
+    }[treatment]
 
 
 def _level(value: float) -> str:
@@ -95,6 +105,7 @@ def debrief_blocks(live, group: int, id_prefix: str) -> list[dict[str, Any]]:
     blocks = []
     for raw in debrief.to_dict()["blocks"]:
         raw["part"] = raw["block"] + 1
+        raw["told"] = treatment_words(raw["treatment"])
         raw["sentence"] = plain_sentence(raw, live.study.resource.unit)
         raw["svg"] = stock_path_svg(
             raw, live.study.resource.capacity, degraded_rounds(live, group, raw["block"]),
@@ -111,6 +122,9 @@ def phone_debrief(live, group: int) -> dict[str, Any] | None:
     blocks = debrief_blocks(live, group, id_prefix="mine")
     keep = ("part", "name", "threshold", "recovery_level", "crossed_round", "total_regrowth_lost",
             "sentence", "svg")
+    for b in blocks:  # the same one-decimal numbers the console shows
+        for key in ("threshold", "recovery_level"):
+            b[key] = None if b[key] is None else round(b[key], 1)
     return {
         "blocks": [{k: b[k] for k in keep} for b in blocks],
         "caution": _("This game is a teaching device: its stock and danger level are invented and "

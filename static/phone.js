@@ -288,10 +288,15 @@
       var chart = document.createElement("div");
       chart.className = "debrief-chart";
       chart.innerHTML = b.svg;  // drawn and escaped by the server, after the facilitator's reveal
+      var level = document.createElement("p");
+      if (b.threshold !== null) {
+        level.textContent = fmt("debrief_level", { level: b.threshold, recovery: b.recovery_level }) + " " +
+          (b.crossed_round ? fmt("debrief_crossed", { round: b.crossed_round }) : S.debrief_never);
+      }
       var p = document.createElement("p");
       p.className = "sentence";
       p.textContent = b.sentence;
-      body.appendChild(h); body.appendChild(chart); body.appendChild(p);
+      body.appendChild(h); body.appendChild(level); body.appendChild(chart); body.appendChild(p);
     });
     $("debrief-caution").textContent = d.caution;
   }
