@@ -18,14 +18,34 @@ from __future__ import annotations
 
 import re
 from collections.abc import Mapping, Sequence
+from dataclasses import dataclass
 from typing import Any
 from xml.sax.saxutils import escape, quoteattr
 
 from .gauge import BLUE, FONT, INK, ORANGE, PAPER, VERMILLION
 
-WIDTH, HEIGHT = 640, 330
-LEFT, RIGHT, TOP, BOTTOM = 52, 150, 24, 282  # plot area; the right margin holds line names
-RIGHT_EDGE = WIDTH - RIGHT
+
+@dataclass(frozen=True)
+class Layout:
+    """Picture size and plot area (SVG units); the right margin holds the line names."""
+
+    width: int
+    height: int
+    left: int
+    right_margin: int
+    top: int
+    bottom: int
+    text: float  # font-size multiplier
+
+    @property
+    def right_edge(self) -> int:
+        return self.width - self.right_margin
+
+
+# The projector and the handout; a phone gets fewer units per text pixel, so larger words.
+WIDE = Layout(640, 330, 52, 150, 24, 282, 1.0)
+PHONE = Layout(400, 300, 40, 92, 26, 246, 1.25)
+NAMES_INSIDE_BELOW = 120  # a narrower right margin cannot hold "Danger level 37.9": name lines in the plot
 WHAT_IF_DASHES = {1: "12 6", 2: "3 5"}
 
 DEFAULT_LABELS = {
@@ -45,7 +65,7 @@ def _number(value: float) -> str:
     return str(int(round(value))) if abs(value - round(value)) < 1e-9 else f"{value:.1f}"
 
 
-def _text(x: float, y: float, content: str, *, size: int = 15, anchor: str = "start",
+def _plain_text(x: float, y: float, content: str, *, size: int = 15, anchor: str = "start",
           weight: str = "normal", fill: str = INK) -> str:
     return (
         f'<text x="{x:.1f}" y="{y:.1f}" font-size="{size}" font-weight="{weight}" '
@@ -64,7 +84,7 @@ def _merge(labels: Mapping[str, str] | None) -> dict[str, str]:
     return merged
 
 
-def _spread(wanted: list[tuple[float, int]], gap: float) -> dict[int, float]:
+def _spread(wanted: list[tuple[float, int]], gap: float, bottom: float) -> dict[int, float]:
     """Move line-end names apart vertically so no two overlap (keeps their order)."""
     placed: dict[int, float] = {}
     last = -1e9
@@ -72,7 +92,7 @@ def _spread(wanted: list[tuple[float, int]], gap: float) -> dict[int, float]:
         y = max(y, last + gap)
         placed[key] = y
         last = y
-    overflow = last - (BOTTOM + 4)
+    overflow = last - (bottom + 4)
     if overflow > 0:
         placed = {k: v - overflow for k, v in placed.items()}
     return placed
@@ -85,6 +105,7 @@ def stock_path_svg(
     *,
     labels: Mapping[str, str] | None = None,
     id_prefix: str = "path",
+    layout: Layout = WIDE,
 ) -> str:
     """Inline SVG of one debriefed block (a ``blocks`` entry of ``GroupDebrief.to_dict()``).
 
@@ -96,6 +117,7 @@ def stock_path_svg(
     degraded_rounds : rounds (1-based) that ended in the degraded regime; shaded.
     labels : translated words by key (``DEFAULT_LABELS``); missing keys stay English.
     id_prefix : prefix of pattern ids, unique per page.
+    layout : ``WIDE`` (projector, handout) or ``PHONE``.
     """
     if not re.fullmatch(r"[A-Za-z][A-Za-z0-9_-]{0,30}", id_prefix):
         raise ValueError(f"id_prefix holds {id_prefix!r}; allowed: a letter, then letters, digits, _ or -")
@@ -108,12 +130,18 @@ def stock_path_svg(
     what_ifs = list(block.get("what_ifs") or [])
     steps = max([len(path)] + [len(w["stock_path"]) for w in what_ifs]) - 1
     p = id_prefix
+    WIDTH, HEIGHT, LEFT, TOP, BOTTOM = (  # noqa: N806 - the drawing's fixed geometry
+        layout.width, layout.height, layout.left, layout.top, layout.bottom)
+    RIGHT_EDGE = layout.right_edge  # noqa: N806
 
     def x(i: float) -> float:
         return LEFT + (RIGHT_EDGE - LEFT) * i / steps
 
     def y(v: float) -> float:
         return BOTTOM - (BOTTOM - TOP) * min(max(v, 0.0), capacity) / capacity
+
+    def _text(x_: float, y_: float, content: str, *, size: int = 15, **kw) -> str:
+        return _plain_text(x_, y_, content, size=round(size * layout.text), **kw)
 
     threshold, recovery = block.get("threshold"), block.get("recovery_level")
     title = words["title"].format(block=int(block.get("block", 0)) + 1)
@@ -133,7 +161,8 @@ def stock_path_svg(
                          f'height="{BOTTOM - TOP}" fill="url(#{p}-hatch)"/>')
     if degraded_rounds:
         first = min(degraded_rounds)
-        parts.append(_text(x(first - 1) + 4, TOP + 16, words["degraded"], size=14, weight="bold"))
+        parts.append(_text(x(first - 1) + 4, TOP + 16 * layout.text, words["degraded"], size=14,
+                           weight="bold"))
     # Axes and scale.
     parts += [
         f'<line x1="{LEFT}" x2="{LEFT}" y1="{TOP}" y2="{BOTTOM}" stroke="{INK}" stroke-width="2"/>',
@@ -146,7 +175,8 @@ def stock_path_svg(
     label_every = 1 if steps <= 15 else 5
     for t in range(1, steps + 1):
         if t % label_every == 0 or t == 1:
-            parts.append(_text((x(t - 1) + x(t)) / 2, BOTTOM + 18, str(t), size=13, anchor="middle"))
+            parts.append(_text((x(t - 1) + x(t)) / 2, BOTTOM + 18 * layout.text, str(t), size=13,
+                               anchor="middle"))
     names: list[tuple[float, int]] = []
     name_text: dict[int, tuple[str, str]] = {}
     # Threshold and recovery level.
@@ -154,14 +184,23 @@ def stock_path_svg(
         ty = y(float(threshold))
         parts.append(f'<line x1="{LEFT}" x2="{RIGHT_EDGE}" y1="{ty:.1f}" y2="{ty:.1f}" '
                      f'stroke="{VERMILLION}" stroke-width="5" stroke-dasharray="16 6"/>')
-        names.append((ty + 5, 0))
-        name_text[0] = (words["danger_level"].format(level=_number(threshold)), "bold")
+        danger_name = words["danger_level"].format(level=_number(threshold))
+        if layout.right_margin < NAMES_INSIDE_BELOW:
+            parts.append(_text(RIGHT_EDGE - 4, ty + 20 * layout.text, danger_name, size=15, anchor="end",
+                               weight="bold"))
+        else:
+            names.append((ty + 5, 0))
+            name_text[0] = (danger_name, "bold")
     if recovery is not None:
         ry = y(float(recovery))
         parts.append(f'<line x1="{LEFT}" x2="{RIGHT_EDGE}" y1="{ry:.1f}" y2="{ry:.1f}" '
                      f'stroke="{BLUE}" stroke-width="2.5" stroke-dasharray="2 5" stroke-linecap="round"/>')
-        names.append((ry + 5, 1))
-        name_text[1] = (words["recovery_level"].format(level=_number(recovery)), "normal")
+        recovery_name = words["recovery_level"].format(level=_number(recovery))
+        if layout.right_margin < NAMES_INSIDE_BELOW:
+            parts.append(_text(RIGHT_EDGE - 4, ry - 6, recovery_name, size=14, anchor="end"))
+        else:
+            names.append((ry + 5, 1))
+            name_text[1] = (recovery_name, "normal")
     # What-if paths under the real one.
     for n, what_if in enumerate(what_ifs, start=2):
         wp = [float(v) for v in what_if["stock_path"]]
@@ -188,7 +227,7 @@ def stock_path_svg(
         anchor = "start" if cx < (LEFT + RIGHT_EDGE) / 2 else "end"
         parts.append(_text(cx + (14 if anchor == "start" else -14), TOP + 34, label, size=15,
                            anchor=anchor, weight="bold"))
-    for key, ny in _spread(names, 17).items():
+    for key, ny in _spread(names, 17 * layout.text, BOTTOM).items():
         content, weight = name_text[key]
         parts.append(_text(RIGHT_EDGE + 8, ny, content, size=14, weight=weight))
     parts.append("</svg>")

@@ -14,7 +14,7 @@ from flask_babel import gettext as _
 from game_logic.debrief import GroupDebrief, debrief_group
 from game_logic.rounds import Regime, RoundOutcome
 
-from .debrief_chart import stock_path_svg
+from .debrief_chart import PHONE, WIDE, stock_path_svg
 
 
 def finished_outcomes(live, group: int) -> list[RoundOutcome]:
@@ -96,7 +96,7 @@ def plain_sentence(block: dict[str, Any], unit: str) -> str:
              k=deepest["less_by"], later=deepest["crossed_round"])
 
 
-def debrief_blocks(live, group: int, id_prefix: str) -> list[dict[str, Any]]:
+def debrief_blocks(live, group: int, id_prefix: str, phone: bool = False) -> list[dict[str, Any]]:
     """Every finished block of the group, ready for a page: numbers, sentence and picture."""
     debrief = group_debrief(live, group)
     if debrief is None:
@@ -107,9 +107,11 @@ def debrief_blocks(live, group: int, id_prefix: str) -> list[dict[str, Any]]:
         raw["part"] = raw["block"] + 1
         raw["told"] = treatment_words(raw["treatment"])
         raw["sentence"] = plain_sentence(raw, live.study.resource.unit)
+        # A phone is narrow: its picture leaves the what-if lines to the sentence.
+        drawn = {**raw, "what_ifs": []} if phone else raw
         raw["svg"] = stock_path_svg(
-            raw, live.study.resource.capacity, degraded_rounds(live, group, raw["block"]),
-            labels=labels, id_prefix=f"{id_prefix}-b{raw['part']}",
+            drawn, live.study.resource.capacity, degraded_rounds(live, group, raw["block"]),
+            labels=labels, id_prefix=f"{id_prefix}-b{raw['part']}", layout=PHONE if phone else WIDE,
         )
         blocks.append(raw)
     return blocks
@@ -119,7 +121,7 @@ def phone_debrief(live, group: int) -> dict[str, Any] | None:
     """What a phone of the group may show once revealed: its own group only; else None."""
     if not live.state.debrief_revealed:
         return None
-    blocks = debrief_blocks(live, group, id_prefix="mine")
+    blocks = debrief_blocks(live, group, id_prefix="mine", phone=True)
     keep = ("part", "name", "threshold", "recovery_level", "crossed_round", "total_regrowth_lost",
             "sentence", "svg")
     for b in blocks:  # the same one-decimal numbers the console shows

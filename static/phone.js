@@ -170,7 +170,9 @@
     $("less").disabled = talking || choice <= 0;
     $("more").disabled = talking || choice >= max;
     $("confirm").disabled = talking;
-    $("confirm").textContent = fmt("confirm", { n: choice });
+    // Pictures mode: a tick and the number; the full words stay for screen readers.
+    $("confirm").textContent = pictorial ? "\u2713 " + choice : fmt("confirm", { n: choice });
+    $("confirm").setAttribute("aria-label", fmt("confirm", { n: choice }));
     $("range").textContent = "0 – " + max + " " + (snap ? snap.view.unit : "");
     buildPicker(max);
     Array.prototype.forEach.call($("unit-picker").children, function (b) {

@@ -25,7 +25,7 @@ seats_per_group = 2
 [resource]
 unit = "baskets"
 capacity = 100
-initial_stock = 80
+initial_stock = 50
 max_harvest = 8
 
 [threshold]
