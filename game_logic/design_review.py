@@ -47,6 +47,11 @@ def design_warnings(study: Study) -> list[str]:
             f"the threshold can be as high as {support[1]:g}, at or above the initial stock "
             f"{res.initial_stock}: some groups would start in the danger zone"
         )
+    if study.session.teaching_view:
+        warnings.append(
+            "session.teaching_view = true: the projector shows every group's stock during play, "
+            "which changes the treatment; use it for workshops, not for research sessions"
+        )
     minutes = expected_minutes(study)
     if minutes > 180:
         warnings.append(f"expected duration {minutes:.0f} minutes: over three hours is hard on participants")

@@ -82,3 +82,26 @@ def make_strategy(name: str, study: Study):
     if name == "conditional":
         return NoisyConditionalCooperator(share=share, seats=seats, cap=cap)
     raise ValueError(f"unknown strategy {name!r}; allowed: {', '.join(STRATEGY_NAMES)}")
+
+
+def choose_from_view(name: str, view: dict, share: int, rng: np.random.Generator) -> int:
+    """One simulated seat's harvest from what its phone shows (rehearsal bots).
+
+    Same rules as the vectorised strategies, read from a participant view: the
+    conditional cooperator matches the others' mean of last round, which every
+    treatment shows as the group total less the seat's own take.
+    """
+    cap = int(view["max_harvest"])
+    if name == "max":
+        return cap
+    if name == "sustainable":
+        return min(cap, share)
+    if name != "conditional":
+        raise ValueError(f"unknown strategy {name!r}; allowed: {', '.join(STRATEGY_NAMES)}")
+    last = view.get("last_round")
+    if last is None:
+        base = float(share)
+    else:
+        base = (last["group_total"] - last["taken"]) / max(1, view["seats"] - 1)
+    wish = base + rng.normal(0.0, 1.0)
+    return int(np.clip(np.floor(wish + 0.5), 0, cap))

@@ -13,7 +13,7 @@ from decimal import Decimal
 from pathlib import Path
 from typing import Annotated, Literal
 
-from pydantic import BaseModel, ConfigDict, Field, ValidationError, model_validator
+from pydantic import BaseModel, ConfigDict, Field, StrictBool, ValidationError, model_validator
 
 from .errors import StudyError
 
@@ -42,6 +42,10 @@ class SessionSpec(_Frozen):
     setup_minutes: Annotated[float, Field(ge=0, le=240)] = 20
     minutes_per_round: Annotated[float, Field(gt=0, le=30)] = 2.5
     debrief_minutes: Annotated[float, Field(ge=0, le=120)] = 15
+    # The live teaching view shows every group's stock to the whole room, which
+    # changes what participants know: off unless the study asks for it. Strict,
+    # so "yes" or 1 is refused rather than read as true.
+    teaching_view: StrictBool = False
 
     @model_validator(mode="after")
     def _language_offered(self):

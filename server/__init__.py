@@ -27,7 +27,7 @@ def create_app(config: dict[str, Any] | None = None) -> Flask:
     ``EBBTIDE_SEED``, ``EBBTIDE_PIN``, ``EBBTIDE_PUBLIC_URL`` (the address printed on
     seat cards; defaults to the address the console was opened at).
     """
-    from . import sockets, web  # noqa: F401 - sockets registers its handlers on import
+    from . import debrief_pages, sockets, web  # noqa: F401 - sockets registers its handlers on import
     from .live import Registry
     from .store import Store
 
@@ -69,6 +69,7 @@ def create_app(config: dict[str, Any] | None = None) -> Flask:
     Babel(app, locale_selector=select_locale)
     app.jinja_env.globals["get_locale"] = get_locale
     app.register_blueprint(web.bp)
+    app.register_blueprint(debrief_pages.bp)  # teach: debrief, handout, teaching view
     socketio.init_app(
         app,
         async_mode=ASYNC_MODE,

@@ -216,5 +216,48 @@ def export(db_path: str, out_dir: str) -> None:
         click.echo(f"wrote {folder}/decisions.csv, rounds.csv, seats.csv, datapackage.json")
 
 
+@main.command()
+@click.argument("db_path", type=click.Path(exists=True, dir_okay=False))
+@click.option("--url", required=True, help="Address of the running session, e.g. http://127.0.0.1:8750.")
+@click.option("--strategy", type=click.Choice(["max", "sustainable", "conditional"]),
+              default="conditional", show_default=True, help="How the bots harvest.")
+@click.option("--groups", "group_codes", default="",
+              help="Comma-separated group codes the bots play (e.g. G01,G02) [default: every group].")
+@click.option("--seed", type=click.IntRange(0, 2**63 - 1), default=1, show_default=True,
+              help="Seed of the bots' own noise and thinking times.")
+@click.option("--minutes", type=click.FloatRange(0.1, 600), default=30, show_default=True,
+              help="Stop after this long even if the session has not ended.")
+def rehearse(db_path: str, url: str, strategy: str, group_codes: str, seed: int,
+             minutes: float) -> None:
+    """Rehearsal: bots play seats of the session in DB_PATH served at --url.
+
+    Pace the session from the console as usual; bots answer every round they are shown.
+    """
+    from exports.tables import group_code
+    from game_logic.study import parse_study
+    from server.rehearsal import rehearse as play
+    from server.store import Store
+
+    with Store(db_path) as store:
+        records = store.sessions()
+        if not records:
+            click.echo(f"{db_path} holds no session", err=True)
+            sys.exit(2)
+        record = records[-1]
+        keys = store.seat_keys(record.session_id)
+    study = parse_study(record.study_text)
+    wanted = {c.strip().upper() for c in group_codes.split(",") if c.strip()}
+    known = {group_code(k.group) for k in keys}
+    if wanted - known:
+        click.echo(f"--groups names {sorted(wanted - known)}; allowed: {sorted(known)}", err=True)
+        sys.exit(2)
+    chosen = [k for k in keys if not wanted or group_code(k.group) in wanted]
+    click.echo(f"rehearsal: {len(chosen)} bot(s) on {record.session_id} at {url}; "
+               "start and pace the session from the console")
+    result = play(url, study, chosen, strategy=strategy, seed=seed, max_seconds=minutes * 60)
+    click.echo(f"{result.acknowledged} decision(s) acknowledged, {result.refused} refused, "
+               f"in {result.seconds:.0f} s; session {'ended' if result.finished else 'still running'}")
+
+
 if __name__ == "__main__":
     main()

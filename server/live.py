@@ -21,6 +21,7 @@ from game_logic.rounds import RoundOutcome
 from game_logic.study import Study, parse_study
 
 from .payment_sheet import PaymentSheet, payment_sheet
+from .phone_view import add_to_console_snapshot, add_to_seat_snapshot
 from .refusals import Refused
 from .replay import Receipt, SessionState, replay
 from .store import SeatKey, SessionRecord, Store
@@ -118,7 +119,8 @@ class LiveSession:
 
     def seat_snapshot(self, group: int, seat: int) -> dict[str, Any]:
         with self._lock:
-            return self.state.seat_snapshot(group, seat)
+            # teach: the stock picture, talk countdown and revealed debrief (server/phone_view.py)
+            return add_to_seat_snapshot(self, group, seat, self.state.seat_snapshot(group, seat))
 
     def payment_sheet(self) -> PaymentSheet:
         with self._lock:
@@ -126,7 +128,8 @@ class LiveSession:
 
     def console_snapshot(self, online: dict[tuple[int, int], int] | None = None) -> dict[str, Any]:
         with self._lock:
-            return console_snapshot(self.state, self.keys, online or {})
+            # teach: small gauges, talk countdowns, the signal's parts (server/phone_view.py)
+            return add_to_console_snapshot(self, console_snapshot(self.state, self.keys, online or {}))
 
 
 def _audit(outcome: RoundOutcome) -> dict[str, Any]:

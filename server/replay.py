@@ -96,6 +96,7 @@ class SessionState:
     released: set[tuple[int, int]] = field(default_factory=set)
     receipts: dict[str, Receipt] = field(default_factory=dict)
     seq: int = 0
+    debrief_revealed: bool = False  # the facilitator showed the debrief to participants
 
     @classmethod
     def new(cls, study: Study, seed: int, session_id: str) -> SessionState:
@@ -159,8 +160,21 @@ class SessionState:
                     "block_running",
                     f"group {body['group'] + 1} is still playing block {progress.state.block + 1}",
                 )
+        elif kind == "debrief_revealed":
+            self._check_reveal()
         elif kind not in AUDIT_KINDS:
             raise Refused("unknown_event", f"unknown event {kind!r}")
+
+    def _check_reveal(self) -> None:
+        # Only after play: a threshold revealed before a later block would change its treatment.
+        if self.status != "ended":
+            raise Refused(
+                "session_running",
+                f"the session is {self.status}; the debrief can be revealed to participants "
+                "only after the session has ended",
+            )
+        if self.debrief_revealed:
+            raise Refused("already_revealed", "the debrief has already been revealed to participants")
 
     def _check_open_round(self, body: dict[str, Any], decided_ok: bool) -> GroupProgress:
         progress = self._group(body["group"])
@@ -281,6 +295,8 @@ class SessionState:
             progress = self.groups[body["group"]]
             progress.state = next_block(self.study, self.seed, progress.state)
             progress.waiting = False
+        elif kind == "debrief_revealed":
+            self.debrief_revealed = True
         return resolved
 
     def _resolve(self, g: int) -> RoundOutcome:

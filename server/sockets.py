@@ -34,7 +34,9 @@ from .messages import (
     PhoneAuth,
     SeatAction,
 )
+from .phone_view import remember_language
 from .refusals import Refused, from_validation_error
+from .talk import refuse_during_talk, register_console_events
 
 FLOOD_EVENTS = 20  # per phone connection, within FLOOD_SECONDS; a person taps far less
 CONSOLE_FLOOD_EVENTS = 60  # a facilitator typing slips seat by seat clicks more often
@@ -186,6 +188,7 @@ def on_connect(auth=None):
     )
     join_room(group_room(live.session_id, key.group))
     join_room(seat_room(live.session_id, key.group, key.seat))
+    remember_language(live, key.group, key.seat)  # teach: the seat's words follow its phone
     emit("snapshot", live.seat_snapshot(key.group, key.seat))
     send_console(live)
 
@@ -232,6 +235,8 @@ def on_harvest(conn: Connection, live: LiveSession, msg: HarvestRequest):
         "group": conn.group, "seat": conn.seat, "block": msg.block, "round": msg.round,
         "harvest": msg.harvest, "source": conn.agent,
     }
+    if msg.decision_id not in live.state.receipts:  # teach: no choices while the group talks
+        refuse_during_talk(live, conn.group, msg.block, msg.round)
     change = live.submit("harvest_submitted", body, decision_id=msg.decision_id)
     if change.is_new:
         if _session_just_ended(live, change):
@@ -311,6 +316,10 @@ def on_open_block(conn: Connection, live: LiveSession, msg: GroupTarget):
         send_group(live, g)
     send_console(live)
     return {"ok": True, "seq": live.state.seq}
+
+
+# teach: the console extends or ends a group's talk pause (server/talk.py)
+register_console_events(edge, send_group, send_console)
 
 
 # -- console fall-backs: a dead phone, paper slips, a paused group, a correction, a released seat --

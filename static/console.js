@@ -70,6 +70,32 @@
     state.groups.forEach(function (g) { box.appendChild(groupCard(g)); });
   }
 
+  // teach: the group's small gauge, its talk pause controls and the signal's hidden parts.
+  function teachParts(card, hidden, g) {
+    if (g.hidden.health) {
+      var h = g.hidden.health;
+      hidden.appendChild(el("p", S.health + ": " + h.band + " · " + fmt("health_parts",
+        { score: h.score, level: h.level, pace: h.pace, slowing: h.slowing })));
+    }
+    if (g.gauge_svg) {
+      var gauge = el("div", null, "console-gauge");
+      gauge.innerHTML = g.gauge_svg;  // drawn by the server from the seats' own view
+      card.insertBefore(gauge, hidden);
+    }
+    if (g.talk_remaining !== null && g.talk_remaining !== undefined && g.talk_remaining > 0) {
+      var talk = el("div", null, "buttons talk-controls");
+      // The server sends seconds left; shown as a clock time, which stays true without ticking.
+      var until = new Date(Date.now() + g.talk_remaining * 1000).toLocaleTimeString();
+      talk.appendChild(el("p", fmt("talk_left", { time: until }), "state-line"));
+      var more = el("button", S.talk_more); more.type = "button";
+      more.addEventListener("click", function () { act("console_talk_extend", { group: g.group }); });
+      var end = el("button", S.talk_end); end.type = "button";
+      end.addEventListener("click", function () { act("console_talk_end", { group: g.group }); });
+      talk.appendChild(more); talk.appendChild(end);
+      card.insertBefore(talk, hidden);
+    }
+  }
+
   function groupCard(g) {
     var card = el("section", null, "card group");
     card.dataset.group = g.group;
@@ -84,6 +110,7 @@
     hidden.appendChild(el("p", S.threshold + ": " + (g.hidden.threshold === null ? "—" : g.hidden.threshold.toFixed(1)) +
       " · " + S.regime + ": " + g.hidden.regime));
     card.appendChild(hidden);
+    teachParts(card, hidden, g);
 
     var seats = el("table");
     seats.appendChild(row([S.seat, S.code, S.joined, S.decided, S.points], true));

@@ -4,6 +4,7 @@
   "use strict";
   var S = JSON.parse(document.getElementById("phone-strings").textContent);
   var $ = function (id) { return document.getElementById(id); };
+  var SVG_NS = "http://www.w3.org/2000/svg";
 
   function fmt(key, values) {
     return (S[key] || key).replace(/%\((\w+)\)s/g, function (_, name) {
@@ -15,6 +16,16 @@
     var bytes = new Uint8Array(12);
     window.crypto.getRandomValues(bytes);
     return Array.prototype.map.call(bytes, function (b) { return ("0" + b.toString(16)).slice(-2); }).join("");
+  }
+
+  function icon(name, cls) {
+    var svg = document.createElementNS(SVG_NS, "svg");
+    svg.setAttribute("class", "icon" + (cls ? " " + cls : ""));
+    svg.setAttribute("aria-hidden", "true");
+    var use = document.createElementNS(SVG_NS, "use");
+    use.setAttribute("href", "#icon-" + name);
+    svg.appendChild(use);
+    return svg;
   }
 
   // sessionStorage first, so that browser tabs used as phones in a rehearsal keep their own seats.
@@ -33,18 +44,39 @@
   if (!device) { device = randomId(); localStorage.setItem("ebbtide.device", device); }
   var pendingKey = "ebbtide.pending." + secret.slice(0, 12);
 
+  // Pictorial mode: remembered in this browser, so a reload or a new round keeps it.
+  var pictorial = localStorage.getItem("ebbtide.pictorial") === "1";
+  function applyMode() {
+    document.body.classList.toggle("pictorial", pictorial);
+    var toggle = $("picture-toggle");
+    toggle.textContent = pictorial ? S.words : S.pictures;
+    toggle.setAttribute("aria-pressed", pictorial ? "true" : "false");
+    toggle.title = S.picture_mode;
+  }
+  $("picture-toggle").hidden = false;
+  $("picture-toggle").addEventListener("click", function () {
+    pictorial = !pictorial;
+    localStorage.setItem("ebbtide.pictorial", pictorial ? "1" : "0");
+    applyMode();
+    render();
+  });
+  applyMode();
+
   $("game").hidden = false;
-  $("stock-label").textContent = S.stock;
   $("how-many").textContent = S.how_many;
   $("points-label").textContent = S.your_points;
   $("less").setAttribute("aria-label", S.less);
   $("more").setAttribute("aria-label", S.more);
   $("connection").textContent = S.connecting;
+  $("talk-title").textContent = S.talk_title;
+  $("talk-opens").textContent = S.talk_opens;
 
   var snap = null;
   var lastSeq = -1;
   var choice = 0;
   var roundKey = "";
+  var talkEndsAt = null;  // this phone's clock: when the talk pause ends
+  var talkTimer = null;
 
   function pending() {
     try { return JSON.parse(localStorage.getItem(pendingKey)); } catch (e) { return null; }
@@ -96,6 +128,8 @@
     if (s.seq < lastSeq) return;  // an older picture arriving late changes nothing
     lastSeq = s.seq;
     snap = s;
+    // The server sends seconds left (its clock); this phone counts down on its own.
+    talkEndsAt = s.talk_remaining > 0 ? Date.now() + s.talk_remaining * 1000 : null;
     render();
   });
   socket.on("problem", showProblem);
@@ -105,12 +139,16 @@
     $("problem").hidden = false;
   }
 
+  function talkLeft() {
+    return talkEndsAt === null ? 0 : Math.max(0, Math.ceil((talkEndsAt - Date.now()) / 1000));
+  }
+
   $("less").addEventListener("click", function () { choice = Math.max(0, choice - 1); renderChoice(); });
   $("more").addEventListener("click", function () {
     choice = Math.min(snap ? snap.view.max_harvest : 0, choice + 1); renderChoice();
   });
   $("confirm").addEventListener("click", function () {
-    if (!snap || pending()) return;
+    if (!snap || pending() || talkLeft() > 0) return;
     var v = snap.view;
     var decision = { decision_id: randomId(), block: v.block, round: v.round, harvest: choice };
     setPending(decision);
@@ -119,13 +157,65 @@
     send(decision);
   });
 
+  function buildPicker(max) {
+    var box = $("unit-picker");
+    if (box.dataset.max === String(max)) return;
+    box.dataset.max = String(max);
+    box.textContent = "";
+    for (var n = 0; n <= max; n++) {
+      var b = document.createElement("button");
+      b.type = "button";
+      b.className = "unit-button";
+      b.dataset.n = String(n);
+      b.setAttribute("aria-label", n === 0 ? S.take_none : fmt("take_n", { n: n }));
+      b.appendChild(icon(n === 0 ? "none" : "unit"));
+      var num = document.createElement("span");
+      num.className = "unit-number";
+      num.textContent = String(n);
+      b.appendChild(num);
+      b.addEventListener("click", function (e) {
+        choice = Number(e.currentTarget.dataset.n);
+        renderChoice();
+      });
+      box.appendChild(b);
+    }
+  }
+
   function renderChoice() {
     var max = snap ? snap.view.max_harvest : 0;
+    var talking = talkLeft() > 0;
     $("choice").textContent = choice;
-    $("less").disabled = choice <= 0;
-    $("more").disabled = choice >= max;
-    $("confirm").textContent = fmt("confirm", { n: choice });
+    $("less").disabled = talking || choice <= 0;
+    $("more").disabled = talking || choice >= max;
+    $("confirm").disabled = talking;
+    // Pictures mode: a tick and the number; the full words stay for screen readers.
+    $("confirm").textContent = pictorial ? "\u2713 " + choice : fmt("confirm", { n: choice });
+    $("confirm").setAttribute("aria-label", fmt("confirm", { n: choice }));
     $("range").textContent = "0 – " + max + " " + (snap ? snap.view.unit : "");
+    buildPicker(max);
+    Array.prototype.forEach.call($("unit-picker").children, function (b) {
+      var n = Number(b.dataset.n);
+      b.disabled = talking;
+      b.classList.toggle("on", n > 0 && n <= choice);
+      b.classList.toggle("chosen", n === choice);
+      b.setAttribute("aria-pressed", n === choice ? "true" : "false");
+    });
+  }
+
+  function renderTalk() {
+    var left = talkLeft();
+    $("talk-box").hidden = left <= 0;
+    if (left > 0) {
+      var m = Math.floor(left / 60), s = left % 60;
+      $("talk-countdown").textContent = m + ":" + (s < 10 ? "0" : "") + s;
+      $("talk-countdown").setAttribute("aria-label", fmt("talk_seconds_left", { seconds: left }));
+    }
+    if (left > 0 && talkTimer === null) {
+      talkTimer = window.setInterval(function () {
+        if (talkLeft() <= 0) { window.clearInterval(talkTimer); talkTimer = null; render(); }
+        else renderTalk();
+      }, 250);
+    }
   }
 
   function dangerText(d) {
@@ -133,8 +223,25 @@
     if (d.kind === "range") return fmt("danger_range", { low: d.low, high: d.high });
     if (d.kind === "exact") return fmt("danger_exact", { level: d.level });
     if (d.kind === "risk") return fmt("danger_risk", { level: d.level, percent: Math.round(d.flip_probability * 100) });
-    if (d.kind === "signal") return fmt("signal", { band: S["band_" + d.band], trend: S["trend_" + d.trend] });
+    if (d.kind === "signal") return S.signal_note;
     return "";
+  }
+
+  function renderReasons(d) {
+    var list = $("reasons");
+    list.textContent = "";
+    var reasons = d.kind === "signal" && d.reasons ? d.reasons : [];
+    list.hidden = !reasons.length;
+    if (!reasons.length) return;
+    var intro = document.createElement("li");
+    intro.className = "reason-intro";
+    intro.textContent = S.reason_intro;
+    list.appendChild(intro);
+    reasons.forEach(function (r) {
+      var li = document.createElement("li");
+      li.textContent = S["reason_" + r] || r;
+      list.appendChild(li);
+    });
   }
 
   function fact(list, label, value) {
@@ -143,22 +250,90 @@
     list.appendChild(dt); list.appendChild(dd);
   }
 
+  function picture(box, iconName, value, label, cls) {
+    var row = document.createElement("div");
+    row.className = "picture-fact" + (cls ? " " + cls : "");
+    row.setAttribute("role", "group");
+    row.setAttribute("aria-label", label + ": " + value);
+    row.appendChild(icon(iconName));
+    var num = document.createElement("span");
+    num.className = "picture-number";
+    num.textContent = value;
+    row.appendChild(num);
+    box.appendChild(row);
+    return row;
+  }
+
+  function renderResult(last) {
+    $("result").hidden = !last;
+    if (!last) return;
+    $("result-title").textContent = S.last_round + " (" + last.round + ")";
+    var list = $("result-list");
+    list.textContent = "";
+    fact(list, S.you_asked, last.asked);
+    fact(list, S.you_got, last.taken + " (+" + last.points + ")");
+    if (last.others) fact(list, S.others_took, last.others.join(", "));
+    fact(list, S.group_took, last.group_total);
+    fact(list, S.regrew, last.regrowth);
+    fact(list, S.now_left, last.stock_after);
+    $("others-note").textContent = S.others_none;
+    $("others-note").hidden = !!last.others;
+
+    var pics = $("result-pictures");
+    pics.textContent = "";
+    picture(pics, "me", last.taken, S.you_got, "picture-me");
+    if (last.others) {
+      var others = picture(pics, "other", last.others.join(" · "), S.others_took, "picture-others");
+      others.dataset.others = last.others.join(",");
+    }
+    picture(pics, "group", last.group_total, S.group_took);
+    picture(pics, "grow", "+" + last.regrowth, S.regrew);
+    picture(pics, "stock", last.stock_after, S.now_left);
+    $("rationed").textContent = S.rationed;
+    $("rationed").hidden = !last.rationed;
+  }
+
+  function renderDebrief(d) {
+    $("debrief").hidden = !d;
+    if (!d) return;
+    $("debrief-title").textContent = S.debrief_title;
+    var body = $("debrief-body");
+    body.textContent = "";
+    if (!d.blocks.length) {
+      var none = document.createElement("p"); none.textContent = S.debrief_none; body.appendChild(none);
+    }
+    d.blocks.forEach(function (b) {
+      var h = document.createElement("h3");
+      h.textContent = fmt("debrief_part", { n: b.part, name: b.name });
+      var chart = document.createElement("div");
+      chart.className = "debrief-chart";
+      chart.innerHTML = b.svg;  // drawn and escaped by the server, after the facilitator's reveal
+      var level = document.createElement("p");
+      if (b.threshold !== null) {
+        level.textContent = fmt("debrief_level", { level: b.threshold, recovery: b.recovery_level }) + " " +
+          (b.crossed_round ? fmt("debrief_crossed", { round: b.crossed_round }) : S.debrief_never);
+      }
+      var p = document.createElement("p");
+      p.className = "sentence";
+      p.textContent = b.sentence;
+      body.appendChild(h); body.appendChild(level); body.appendChild(chart); body.appendChild(p);
+    });
+    $("debrief-caution").textContent = d.caution;
+  }
+
   function render() {
     if (!snap) return;
     var v = snap.view;
     $("seat-line").textContent = fmt("your_seat", { seat: v.seat, seats: v.seats }) + " · " +
       (v.rounds_in_block ? fmt("block_round_of", { block: v.block, blocks: v.blocks, round: v.round, rounds: v.rounds_in_block })
                          : fmt("block_round", { block: v.block, blocks: v.blocks, round: v.round }));
-    $("stock").textContent = v.stock;
-    $("unit").textContent = v.unit;
-    $("stock-meter").max = v.capacity;
-    $("stock-meter").value = v.stock;
+    $("gauge").innerHTML = snap.gauge_svg;  // drawn on the server from this seat's view only
     var danger = dangerText(v.danger);
     $("danger").textContent = danger;
     $("danger").hidden = !danger;
-    $("talk").textContent = v.talk ? fmt("talk", { seconds: v.talk_seconds }) : "";
-    $("talk").hidden = !v.talk;
+    renderReasons(v.danger);
     $("points").textContent = v.points_total;
+    $("points").setAttribute("aria-label", S.your_points + ": " + v.points_total);
 
     var key = v.block + "." + v.round;
     if (key !== roundKey) { roundKey = key; choice = 0; }
@@ -174,22 +349,9 @@
     else canChoose = true;
     $("status").textContent = status;
     $("chooser").hidden = !canChoose;
+    renderTalk();
     renderChoice();
-
-    var last = v.last_round;
-    $("result").hidden = !last;
-    if (last) {
-      $("result-title").textContent = S.last_round + " (" + last.round + ")";
-      var list = $("result-list");
-      list.textContent = "";
-      fact(list, S.you_asked, last.asked);
-      fact(list, S.you_got, last.taken + " (+" + last.points + ")");
-      if (last.others) fact(list, S.others_took, last.others.join(", "));
-      fact(list, S.group_took, last.group_total);
-      fact(list, S.regrew, last.regrowth);
-      fact(list, S.now_left, last.stock_after);
-      $("rationed").textContent = S.rationed;
-      $("rationed").hidden = !last.rationed;
-    }
+    renderResult(v.last_round);
+    renderDebrief(snap.debrief);
   }
 })();

@@ -1,0 +1,234 @@
+"""The debrief picture: one block's stock path against its revealed threshold, as inline SVG.
+
+Pure, like ``server.gauge``: a function of one block of ``GroupDebrief.to_dict()``
+(plus the rounds that ended degraded), so tests need no app. The same visual
+language as the gauge: white ground, near-black text, the stock in dark blue, the
+danger level in vermillion (Okabe-Ito), and every mark also carries a line style,
+a pattern or a word, never colour alone:
+
+- the stock path: thick solid blue line with round dots;
+- what-if paths: thinner black lines, long dashes (1 less) and dots (2 less),
+  each named at its end;
+- danger level: thick vermillion dashed line, named with its number;
+- recovery level: blue dotted line, named with its number;
+- degraded rounds: hatched columns; the crossing round: a triangle and words.
+"""
+
+from __future__ import annotations
+
+import re
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass
+from typing import Any
+from xml.sax.saxutils import escape, quoteattr
+
+from .gauge import BLUE, FONT, INK, ORANGE, PAPER, VERMILLION
+
+
+@dataclass(frozen=True)
+class Layout:
+    """Picture size and plot area (SVG units); the right margin holds the line names."""
+
+    width: int
+    height: int
+    left: int
+    right_margin: int
+    top: int
+    bottom: int
+    text: float  # font-size multiplier
+
+    @property
+    def right_edge(self) -> int:
+        return self.width - self.right_margin
+
+
+# The projector and the handout; a phone gets fewer units per text pixel, so larger words.
+WIDE = Layout(640, 330, 52, 150, 24, 282, 1.0)
+PHONE = Layout(400, 300, 40, 92, 26, 246, 1.25)
+NAMES_INSIDE_BELOW = 120  # a narrower right margin cannot hold "Danger level 37.9": name lines in the plot
+WHAT_IF_DASHES = {1: "12 6", 2: "3 5"}
+
+DEFAULT_LABELS = {
+    "stock": "Stock",
+    "round": "Round",
+    "danger_level": "Danger level {level}",
+    "recovery_level": "Recovery {level}",
+    "crossed": "Crossed in round {round}",
+    "degraded": "Degraded",
+    "less": "{k} less each",
+    "title": "Stock path of part {block}",
+}
+
+
+def _number(value: float) -> str:
+    value = float(value)
+    return str(int(round(value))) if abs(value - round(value)) < 1e-9 else f"{value:.1f}"
+
+
+def _plain_text(x: float, y: float, content: str, *, size: int = 15, anchor: str = "start",
+          weight: str = "normal", fill: str = INK) -> str:
+    return (
+        f'<text x="{x:.1f}" y="{y:.1f}" font-size="{size}" font-weight="{weight}" '
+        f'text-anchor="{anchor}" fill="{fill}" stroke="{PAPER}" stroke-width="3" '
+        f'paint-order="stroke">{escape(content)}</text>'
+    )
+
+
+def _merge(labels: Mapping[str, str] | None) -> dict[str, str]:
+    merged = dict(DEFAULT_LABELS)
+    if labels:
+        unknown = sorted(set(labels) - set(DEFAULT_LABELS))
+        if unknown:
+            raise ValueError(f"unknown label keys {unknown}; allowed: {sorted(DEFAULT_LABELS)}")
+        merged.update(labels)
+    return merged
+
+
+def _spread(wanted: list[tuple[float, int]], gap: float, bottom: float) -> dict[int, float]:
+    """Move line-end names apart vertically so no two overlap (keeps their order)."""
+    placed: dict[int, float] = {}
+    last = -1e9
+    for y, key in sorted(wanted):
+        y = max(y, last + gap)
+        placed[key] = y
+        last = y
+    overflow = last - (bottom + 4)
+    if overflow > 0:
+        placed = {k: v - overflow for k, v in placed.items()}
+    return placed
+
+
+def stock_path_svg(
+    block: Mapping[str, Any],
+    capacity: float,
+    degraded_rounds: Sequence[int] = (),
+    *,
+    labels: Mapping[str, str] | None = None,
+    id_prefix: str = "path",
+    layout: Layout = WIDE,
+) -> str:
+    """Inline SVG of one debriefed block (a ``blocks`` entry of ``GroupDebrief.to_dict()``).
+
+    Parameters
+    ----------
+    block : reads ``stock_path``, ``threshold``, ``recovery_level``, ``crossed_round``,
+        ``block`` (0-based) and ``what_ifs`` (each ``less_by`` and ``stock_path``).
+    capacity : top of the stock scale, in units.
+    degraded_rounds : rounds (1-based) that ended in the degraded regime; shaded.
+    labels : translated words by key (``DEFAULT_LABELS``); missing keys stay English.
+    id_prefix : prefix of pattern ids, unique per page.
+    layout : ``WIDE`` (projector, handout) or ``PHONE``.
+    """
+    if not re.fullmatch(r"[A-Za-z][A-Za-z0-9_-]{0,30}", id_prefix):
+        raise ValueError(f"id_prefix holds {id_prefix!r}; allowed: a letter, then letters, digits, _ or -")
+    if capacity <= 0:
+        raise ValueError(f"capacity holds {capacity!r}; allowed: a positive number")
+    words = _merge(labels)
+    path = [float(v) for v in block["stock_path"]]
+    if len(path) < 2:
+        raise ValueError("stock_path needs at least two stocks: the start and the stock after round 1")
+    what_ifs = list(block.get("what_ifs") or [])
+    steps = max([len(path)] + [len(w["stock_path"]) for w in what_ifs]) - 1
+    p = id_prefix
+    WIDTH, HEIGHT, LEFT, TOP, BOTTOM = (  # noqa: N806 - the drawing's fixed geometry
+        layout.width, layout.height, layout.left, layout.top, layout.bottom)
+    RIGHT_EDGE = layout.right_edge  # noqa: N806
+
+    def x(i: float) -> float:
+        return LEFT + (RIGHT_EDGE - LEFT) * i / steps
+
+    def y(v: float) -> float:
+        return BOTTOM - (BOTTOM - TOP) * min(max(v, 0.0), capacity) / capacity
+
+    def _text(x_: float, y_: float, content: str, *, size: int = 15, **kw) -> str:
+        return _plain_text(x_, y_, content, size=round(size * layout.text), **kw)
+
+    threshold, recovery = block.get("threshold"), block.get("recovery_level")
+    title = words["title"].format(block=int(block.get("block", 0)) + 1)
+    parts = [
+        f'<svg viewBox="0 0 {WIDTH} {HEIGHT}" width="100%" role="img" aria-label={quoteattr(title)} '
+        f'font-family={quoteattr(FONT)}>',
+        f"<title>{escape(title)}</title>",
+        f'<defs><pattern id="{p}-hatch" width="10" height="10" patternUnits="userSpaceOnUse" '
+        f'patternTransform="rotate(45)"><rect width="10" height="10" fill="{ORANGE}" fill-opacity="0.35"/>'
+        f'<rect width="2" height="10" fill="{INK}" fill-opacity="0.55"/></pattern></defs>',
+        f'<rect width="{WIDTH}" height="{HEIGHT}" fill="{PAPER}"/>',
+    ]
+    # Degraded rounds: round t runs from point t-1 to point t.
+    for t in degraded_rounds:
+        if 1 <= t <= steps:
+            parts.append(f'<rect x="{x(t - 1):.1f}" y="{TOP}" width="{x(t) - x(t - 1):.1f}" '
+                         f'height="{BOTTOM - TOP}" fill="url(#{p}-hatch)"/>')
+    if degraded_rounds:
+        first = min(degraded_rounds)
+        parts.append(_text(x(first - 1) + 4, TOP + 16 * layout.text, words["degraded"], size=14,
+                           weight="bold"))
+    # Axes and scale.
+    parts += [
+        f'<line x1="{LEFT}" x2="{LEFT}" y1="{TOP}" y2="{BOTTOM}" stroke="{INK}" stroke-width="2"/>',
+        f'<line x1="{LEFT}" x2="{RIGHT_EDGE}" y1="{BOTTOM}" y2="{BOTTOM}" stroke="{INK}" stroke-width="2"/>',
+        _text(LEFT - 6, y(0) + 5, "0", size=14, anchor="end"),
+        _text(LEFT - 6, y(capacity) + 5, _number(capacity), size=14, anchor="end"),
+        _text(LEFT - 6, TOP - 8, words["stock"], size=14, anchor="start"),
+        _text((LEFT + RIGHT_EDGE) / 2, HEIGHT - 6, words["round"], size=14, anchor="middle"),
+    ]
+    label_every = 1 if steps <= 15 else 5
+    for t in range(1, steps + 1):
+        if t % label_every == 0 or t == 1:
+            parts.append(_text((x(t - 1) + x(t)) / 2, BOTTOM + 18 * layout.text, str(t), size=13,
+                               anchor="middle"))
+    names: list[tuple[float, int]] = []
+    name_text: dict[int, tuple[str, str]] = {}
+    # Threshold and recovery level.
+    if threshold is not None:
+        ty = y(float(threshold))
+        parts.append(f'<line x1="{LEFT}" x2="{RIGHT_EDGE}" y1="{ty:.1f}" y2="{ty:.1f}" '
+                     f'stroke="{VERMILLION}" stroke-width="5" stroke-dasharray="16 6"/>')
+        danger_name = words["danger_level"].format(level=_number(threshold))
+        if layout.right_margin < NAMES_INSIDE_BELOW:
+            parts.append(_text(RIGHT_EDGE - 4, ty + 20 * layout.text, danger_name, size=15, anchor="end",
+                               weight="bold"))
+        else:
+            names.append((ty + 5, 0))
+            name_text[0] = (danger_name, "bold")
+    if recovery is not None:
+        ry = y(float(recovery))
+        parts.append(f'<line x1="{LEFT}" x2="{RIGHT_EDGE}" y1="{ry:.1f}" y2="{ry:.1f}" '
+                     f'stroke="{BLUE}" stroke-width="2.5" stroke-dasharray="2 5" stroke-linecap="round"/>')
+        recovery_name = words["recovery_level"].format(level=_number(recovery))
+        if layout.right_margin < NAMES_INSIDE_BELOW:
+            parts.append(_text(RIGHT_EDGE - 4, ry - 6, recovery_name, size=14, anchor="end"))
+        else:
+            names.append((ry + 5, 1))
+            name_text[1] = (recovery_name, "normal")
+    # What-if paths under the real one.
+    for n, what_if in enumerate(what_ifs, start=2):
+        wp = [float(v) for v in what_if["stock_path"]]
+        k = int(what_if["less_by"])
+        points = " ".join(f"{x(i):.1f},{y(v):.1f}" for i, v in enumerate(wp))
+        parts.append(f'<polyline points="{points}" fill="none" stroke="{INK}" stroke-width="2.5" '
+                     f'stroke-dasharray="{WHAT_IF_DASHES.get(k, "8 4")}"/>')
+        names.append((y(wp[-1]) + 5, n))
+        name_text[n] = (words["less"].format(k=k), "normal")
+    # The real path, with dots at every round's start.
+    points = " ".join(f"{x(i):.1f},{y(v):.1f}" for i, v in enumerate(path))
+    parts.append(f'<polyline points="{points}" fill="none" stroke="{BLUE}" stroke-width="5" '
+                 'stroke-linejoin="round"/>')
+    parts += [f'<circle cx="{x(i):.1f}" cy="{y(v):.1f}" r="4.5" fill="{BLUE}" stroke="{INK}" '
+              'stroke-width="1.5"/>' for i, v in enumerate(path)]
+    names.append((y(path[-1]) + 5, 99))
+    name_text[99] = (words["stock"], "bold")
+    crossed = block.get("crossed_round")
+    if crossed:
+        cx = (x(crossed - 1) + x(crossed)) / 2
+        parts.append(f'<path d="M{cx - 9:.1f},{TOP + 22} h18 l-9,14 z" fill="{VERMILLION}" '
+                     f'stroke="{INK}" stroke-width="2"/>')
+        label = words["crossed"].format(round=crossed)
+        anchor = "start" if cx < (LEFT + RIGHT_EDGE) / 2 else "end"
+        parts.append(_text(cx + (14 if anchor == "start" else -14), TOP + 34, label, size=15,
+                           anchor=anchor, weight="bold"))
+    for key, ny in _spread(names, 17 * layout.text, BOTTOM).items():
+        content, weight = name_text[key]
+        parts.append(_text(RIGHT_EDGE + 8, ny, content, size=14, weight=weight))
+    parts.append("</svg>")
+    return "".join(parts)

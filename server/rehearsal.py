@@ -1,0 +1,152 @@
+"""Rehearsal: bots play seats of a live session through its real sockets.
+
+Each bot is an ordinary Socket.IO client that presents a seat secret, exactly
+as a phone does (``agent = "bot"``, so its decisions are exported with source
+``bot``), and answers every open round it is shown using a pilot strategy read
+from its own participant view. A researcher uses it to try the room's router
+and laptop before the trip; tests use it to play whole sessions.
+"""
+
+from __future__ import annotations
+
+import threading
+import time
+from dataclasses import dataclass, field
+
+import numpy as np
+import socketio
+
+from game_logic.benchmarks import equal_share_of_sustainable_yield
+from game_logic.seeding import strategy_rng
+from game_logic.strategies import choose_from_view
+from game_logic.study import Study
+
+from .store import SeatKey
+
+
+@dataclass
+class Bot:
+    """One seat played by a strategy; remembers what it sent and what came back."""
+
+    key: SeatKey
+    strategy: str
+    share: int
+    rng: np.random.Generator
+    think_seconds: tuple[float, float]
+    client: socketio.Client = field(default_factory=lambda: socketio.Client(reconnection=True))
+    latest: dict | None = None
+    acknowledged: int = 0
+    refused: int = 0
+    last_refusal: str = ""
+    _asking: tuple[int, int] | None = None
+    _lock: threading.Lock = field(default_factory=threading.Lock)
+
+    def start(self, url: str) -> None:
+        self.client.on("snapshot", self._on_snapshot)
+        self.client.connect(
+            url,
+            auth={"secret": self.key.secret, "device": f"bot-{self.key.short_code}", "agent": "bot"},
+            transports=["websocket"],
+            wait_timeout=10,
+        )
+
+    @property
+    def finished(self) -> bool:
+        snap = self.latest
+        return bool(snap) and (snap["status"] == "ended" or snap["view"]["session_over"])
+
+    def _on_snapshot(self, snap: dict) -> None:
+        with self._lock:
+            self.latest = snap
+            view = snap["view"]
+            open_round = (
+                snap["status"] == "running" and not snap["decided"]
+                and not snap["waiting_for_block"] and not view["block_over"]
+            )
+            where = (view["block"], view["round"])
+            if not open_round or self._asking == where:
+                return
+            self._asking = where
+            harvest = choose_from_view(self.strategy, view, self.share, self.rng)
+            pause = float(self.rng.uniform(*self.think_seconds))
+        threading.Timer(pause, self._send, args=(where, harvest)).start()
+
+    def _send(self, where: tuple[int, int], harvest: int) -> None:
+        block, round_number = where
+        # One id per seat and round: a resend after a reconnect is never counted twice.
+        decision_id = f"bot-{self.key.short_code}-b{block}-r{round_number}"
+        body = {"decision_id": decision_id, "block": block, "round": round_number,
+                "harvest": harvest}
+        reply = None
+        # The first snapshot arrives while the connection is still being confirmed,
+        # and a reconnect can drop it again: retry a few times, then give up.
+        for _attempt in range(20):
+            try:
+                reply = self.client.call("harvest", body, timeout=10)
+                break
+            except socketio.exceptions.BadNamespaceError as exc:
+                reply = {"ok": False, "message": f"not connected: {exc}"}
+                time.sleep(0.1)
+            except socketio.exceptions.TimeoutError as exc:
+                reply = {"ok": False, "message": f"no answer: {exc}"}
+                break
+        with self._lock:
+            if reply and reply.get("ok"):
+                self.acknowledged += 1
+            else:
+                self.refused += 1
+                self.last_refusal = str((reply or {}).get("message", reply))
+                self._asking = None  # let the next snapshot try this round again
+
+    def stop(self) -> None:
+        if self.client.connected:
+            self.client.disconnect()
+
+
+@dataclass(frozen=True)
+class RehearsalResult:
+    bots: int
+    acknowledged: int
+    refused: int
+    finished: bool
+    seconds: float
+
+
+def rehearse(
+    url: str,
+    study: Study,
+    keys: list[SeatKey],
+    strategy: str = "conditional",
+    seed: int = 1,
+    think_seconds: tuple[float, float] = (0.2, 1.5),
+    max_seconds: float = 600.0,
+) -> RehearsalResult:
+    """Connect one bot per seat key and play until the session ends or time runs out.
+
+    The facilitator still paces the session from the console (start, open
+    blocks, end): bots only answer the rounds they are shown.
+    """
+    rng = strategy_rng(seed)
+    share = equal_share_of_sustainable_yield(study)
+    bots = [
+        Bot(key, strategy, share, np.random.default_rng(rng.integers(2**63)), think_seconds)
+        for key in keys
+    ]
+    started = time.monotonic()
+    try:
+        for bot in bots:
+            bot.start(url)
+        while time.monotonic() - started < max_seconds:
+            if all(bot.finished for bot in bots):
+                break
+            time.sleep(0.2)
+    finally:
+        for bot in bots:
+            bot.stop()
+    return RehearsalResult(
+        bots=len(bots),
+        acknowledged=sum(b.acknowledged for b in bots),
+        refused=sum(b.refused for b in bots),
+        finished=all(b.finished for b in bots),
+        seconds=time.monotonic() - started,
+    )

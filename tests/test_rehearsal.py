@@ -1,0 +1,52 @@
+"""Rehearsal bots play a whole live session through the real sockets."""
+
+from __future__ import annotations
+
+import threading
+
+import numpy as np
+from conftest import connect_console, wait_until
+
+from game_logic.strategies import choose_from_view
+from server.rehearsal import rehearse
+
+VIEW = {"max_harvest": 10, "seats": 3}
+
+
+def test_bot_choices_follow_the_named_strategy():
+    rng = np.random.default_rng(0)
+    assert choose_from_view("max", VIEW, 2, rng) == 10
+    assert choose_from_view("sustainable", VIEW, 4, rng) == 4
+    after = dict(VIEW, last_round={"group_total": 17, "taken": 5})
+    # Others took (17 - 5) / 2 = 6 on average; noise has sd 1, so within a few units.
+    picks = [choose_from_view("conditional", after, 2, rng) for _ in range(200)]
+    assert 5.5 < np.mean(picks) < 6.5 and min(picks) >= 0 and max(picks) <= 10
+
+
+def test_bots_play_every_round_of_a_live_session(start_server, demo_study):
+    server = start_server(demo_study)
+    console = connect_console(server.url, server.pin)
+    result = {}
+    bots = threading.Thread(
+        target=lambda: result.update(r=rehearse(
+            server.url, demo_study, server.keys, strategy="sustainable", seed=3,
+            think_seconds=(0.0, 0.05), max_seconds=60,
+        )),
+        daemon=True,
+    )
+    try:
+        assert console.act("console_start")["ok"]
+        bots.start()
+        live = server.live
+        wait_until(lambda: all(g.waiting for g in live.state.groups), "every group to end block 1")
+        assert console.act("console_open_block", {})["ok"]
+        bots.join(timeout=60)
+    finally:
+        console.close()
+    rehearsal = result["r"]
+    assert rehearsal.finished
+    # 2 groups x 2 seats x 10 rounds, each acknowledged exactly once.
+    assert rehearsal.acknowledged == 40
+    rows = [s for o, sources in live.state.outcomes() for s in sources]
+    assert len(rows) == 40 and set(rows) == {"bot"}
+    assert all(o.regime_after == "good" for o, _ in live.state.outcomes())
