@@ -16,7 +16,8 @@ import time
 
 import numpy as np
 import pytest
-from conftest import ROOT, ServeProcess, connect_console, connect_phone
+import socketio
+from conftest import ROOT, ServeProcess, connect_phone, console_login
 from helpers_study import make_study
 
 from game_logic.rounds import resolve, start_block
@@ -27,6 +28,7 @@ pytestmark = pytest.mark.slow
 
 SEED, PIN, KILL_SEED = 918273645, "1357", 20250601
 KILLS = 6
+ACK_SECONDS = 2.0
 PHONE_PAUSE = 0.6  # seconds between one phone's decisions: under the flood limit of 20 in 10 s
 
 
@@ -43,6 +45,7 @@ class PlayingPhone(threading.Thread):
         try:
             device = f"device-{self.key.group}-{self.key.seat}"
             phone = connect_phone(self.url, self.key.secret, device=device)
+            raw_socket = phone.client.eio.ws.sock
         except Exception:
             return
         try:
@@ -69,15 +72,31 @@ class PlayingPhone(threading.Thread):
                 phone.close()
             except Exception:
                 pass
+            raw_socket.close()  # when the server died first, the client library leaves it open
 
     def _send(self, phone, decision) -> None:
         decision_id, block, round_number, harvest = decision
-        ack = phone.harvest(decision_id, block, round_number, harvest)
+        # A short bound: a killed server never answers, and the phone then keeps the decision to resend.
+        ack = phone.client.call("harvest", {"decision_id": decision_id, "block": block, "round": round_number,
+                                            "harvest": harvest}, timeout=ACK_SECONDS)
         seat = (self.key.group, self.key.seat)
         self.pending.pop(seat, None)
         if ack["ok"]:
             with self.lock:
                 self.acks[decision_id] = (seat[0], seat[1], ack["block"], ack["round"], ack["harvest"])
+
+
+def start_session(url: str) -> None:
+    """Log in, press start, and close every connection used for it."""
+    with console_login(url, PIN) as http:
+        cookie = "; ".join(f"{k}={v}" for k, v in http.cookies.items())
+    client = socketio.Client(reconnection=False)
+    client.connect(url, auth={"role": "console"}, headers={"Cookie": cookie}, transports=["websocket"],
+                   wait_timeout=10)
+    try:
+        assert client.call("console_start", {}, timeout=10)["ok"]
+    finally:
+        client.disconnect()
 
 
 def independent_rounds(study, seed, harvest_events):
@@ -114,9 +133,7 @@ def test_sigkill_at_random_moments_loses_no_acknowledged_decision(tmp_path):
             if keys is None:
                 with Store(db) as store:
                     keys = store.seat_keys(store.sessions()[0].session_id)
-                console = connect_console(server.url, PIN)
-                assert console.act("console_start")["ok"]
-                console.close()
+                start_session(server.url)
             if run == KILLS:
                 break  # the last start only proves the database opens again
             phones = [PlayingPhone(server.url, key, np.random.default_rng([KILL_SEED, run, i]), acks, lock,

@@ -45,8 +45,9 @@ def test_console_entry_for_a_dead_phone_is_logged_with_who_and_when_and_exported
     event = [e for e in logged(server) if e.decision_id == "console-entry-1"][0]
     assert event.body["source"] == "console" and event.body["by"] == "MK" and event.created_at
     assert server.live.state.groups[0].outcomes[0].asked == (6, 4)
-    http = console_login(server.url, server.pin)
-    archive = zipfile.ZipFile(io.BytesIO(http.get(f"{server.url}/console/export.zip", timeout=10).content))
+    with console_login(server.url, server.pin) as http:
+        content = http.get(f"{server.url}/console/export.zip", timeout=10).content
+    archive = zipfile.ZipFile(io.BytesIO(content))
     name = next(n for n in archive.namelist() if n.endswith("decisions.csv"))
     rows = list(csv.DictReader(io.StringIO(archive.read(name).decode("utf-8"))))
     sources = {(r["seat_id"], r["round"]): r["source"] for r in rows if r["group_id"] == "G01"}
