@@ -160,7 +160,7 @@ def on_connect(auth=None):
             raise ConnectionRefusedError("log in to the console with its PIN first")
         reg.remember(request.sid, Connection("console", live.session_id, recent=deque()))
         join_room(console_room(live.session_id))
-        emit("console_state", live.console_snapshot())
+        emit("console_state", live.console_snapshot(reg.online()))
         return
     try:
         phone = PhoneAuth.model_validate(auth if auth is not None else {})
