@@ -25,7 +25,9 @@ def create_app(config: dict[str, Any] | None = None) -> Flask:
     Config keys: ``EBBTIDE_DB`` (path, required), ``EBBTIDE_STUDY`` (a ``Study`` to
     serve: resumes its latest unfinished session, else creates one),
     ``EBBTIDE_SEED``, ``EBBTIDE_PIN``, ``EBBTIDE_PUBLIC_URL`` (the address printed on
-    seat cards; defaults to the address the console was opened at).
+    seat cards; defaults to the address the console was opened at),
+    ``EBBTIDE_FLOOD_EVENTS`` (messages a phone may send per 10 s, default 20; the
+    console gets three times as many).
     """
     from . import debrief_pages, sockets, web  # noqa: F401 - sockets registers its handlers on import
     from .live import Registry
