@@ -41,7 +41,9 @@ DEFAULT_LABELS = {
     "danger_level": "Danger level {level}",
     "danger_range": "Danger level somewhere in {low} to {high}",
     "danger_vague": "Danger somewhere low",
-    "chance": "If crossed: {percent}% chance of collapse",
+    # The percent sign travels inside {chance}: a literal "%" in a msgid reads as a
+    # printf placeholder to the translation tools.
+    "chance": "If crossed: {chance} chance of collapse",
     "health": "Health",
     "calm": "Calm",
     "watch": "Watch",
@@ -59,6 +61,11 @@ def _number(value: float) -> str:
     """Whole numbers without a decimal point, others to one decimal."""
     value = float(value)
     return str(int(round(value))) if abs(value - round(value)) < 1e-9 else f"{value:.1f}"
+
+
+def _chance(danger: Mapping) -> str:
+    """The flip probability as a percentage, sign included (e.g. "35%")."""
+    return f"{_number(100 * float(danger['flip_probability']))}%"
 
 
 def _merge_labels(labels: Mapping[str, str] | None) -> dict[str, str]:
@@ -192,8 +199,7 @@ def _exact(danger: dict[str, Any], capacity: float, labels: dict[str, str], p: s
         _text(lx, BAR_Y - 14, words, size=20, anchor=anchor, weight="bold", halo=True),
     ]
     if danger["kind"] == "risk":
-        percent = _number(100 * float(danger["flip_probability"]))
-        parts += _caption(_say(labels, "chance", percent=percent))
+        parts += _caption(_say(labels, "chance", chance=_chance(danger)))
     return parts
 
 
@@ -281,7 +287,7 @@ def _describe(stock: str, danger: dict[str, Any], labels: dict[str, str], of: st
     if kind in ("exact", "risk"):
         words.append(_say(labels, "danger_level", level=_number(danger["level"])) + ".")
     if kind == "risk":
-        words.append(_say(labels, "chance", percent=_number(100 * float(danger["flip_probability"]))) + ".")
+        words.append(_say(labels, "chance", chance=_chance(danger)) + ".")
     if kind == "range":
         low, high = _number(danger["low"]), _number(danger["high"])
         words.append(_say(labels, "danger_range", low=low, high=high) + ".")

@@ -31,7 +31,7 @@ def gauge_labels() -> dict[str, str]:
         "danger_level": _("Danger level {level}"),
         "danger_range": _("Danger level somewhere in {low} to {high}"),
         "danger_vague": _("Danger somewhere low"),
-        "chance": _("If crossed: {percent}% chance of collapse"),
+        "chance": _("If crossed: {chance} chance of collapse"),
         "health": _("Health"),
         "calm": _("Calm"),
         "watch": _("Watch"),

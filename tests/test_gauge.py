@@ -169,6 +169,6 @@ def test_narrow_range_at_the_edge_gets_one_joined_label():
 
 
 def test_long_translated_caption_wraps_without_losing_words():
-    long = "Si on passe en dessous : {percent} % de risque d'effondrement durable du stock"
+    long = "Si on passe en dessous : {chance} de risque d'effondrement durable du stock"
     text = words(stock_gauge_svg(view("risk"), labels={"chance": long}))
     assert "effondrement durable du stock" in text
