@@ -22,7 +22,7 @@ from dataclasses import dataclass
 from typing import Any
 from xml.sax.saxutils import escape, quoteattr
 
-from .gauge import BLUE, FONT, INK, ORANGE, PAPER, VERMILLION
+from .gauge import BLUE, FONT, INK, ORANGE, PAPER, VERMILLION, merge_labels
 
 
 @dataclass(frozen=True)
@@ -74,16 +74,6 @@ def _plain_text(x: float, y: float, content: str, *, size: int = 15, anchor: str
     )
 
 
-def _merge(labels: Mapping[str, str] | None) -> dict[str, str]:
-    merged = dict(DEFAULT_LABELS)
-    if labels:
-        unknown = sorted(set(labels) - set(DEFAULT_LABELS))
-        if unknown:
-            raise ValueError(f"unknown label keys {unknown}; allowed: {sorted(DEFAULT_LABELS)}")
-        merged.update(labels)
-    return merged
-
-
 def _spread(wanted: list[tuple[float, int]], gap: float, bottom: float) -> dict[int, float]:
     """Move line-end names apart vertically so no two overlap (keeps their order)."""
     placed: dict[int, float] = {}
@@ -123,7 +113,7 @@ def stock_path_svg(
         raise ValueError(f"id_prefix holds {id_prefix!r}; allowed: a letter, then letters, digits, _ or -")
     if capacity <= 0:
         raise ValueError(f"capacity holds {capacity!r}; allowed: a positive number")
-    words = _merge(labels)
+    words = merge_labels(labels, DEFAULT_LABELS)
     path = [float(v) for v in block["stock_path"]]
     if len(path) < 2:
         raise ValueError("stock_path needs at least two stocks: the start and the stock after round 1")

@@ -68,12 +68,15 @@ def _chance(danger: Mapping) -> str:
     return f"{_number(100 * float(danger['flip_probability']))}%"
 
 
-def _merge_labels(labels: Mapping[str, str] | None) -> dict[str, str]:
-    merged = dict(DEFAULT_LABELS)
+def merge_labels(
+    labels: Mapping[str, str] | None, defaults: Mapping[str, str] = DEFAULT_LABELS
+) -> dict[str, str]:
+    """The caller's (translated) words over the English defaults; unknown keys refused."""
+    merged = dict(defaults)
     if labels:
-        unknown = sorted(set(labels) - set(DEFAULT_LABELS))
+        unknown = sorted(set(labels) - set(defaults))
         if unknown:
-            raise ValueError(f"unknown label keys {unknown}; allowed: {sorted(DEFAULT_LABELS)}")
+            raise ValueError(f"unknown label keys {unknown}; allowed: {sorted(defaults)}")
         merged.update(labels)
     return merged
 
@@ -313,7 +316,7 @@ def stock_gauge_svg(
     """
     if not re.fullmatch(r"[A-Za-z][A-Za-z0-9_-]{0,30}", id_prefix):
         raise ValueError(f"id_prefix holds {id_prefix!r}; allowed: a letter, then letters, digits, _ or -")
-    words = _merge_labels(labels)
+    words = merge_labels(labels)
     stock, capacity, danger = _check_view(view)
     unit = str(view.get("unit", ""))
     stock_text, capacity_text = _number(stock), _number(capacity)

@@ -14,12 +14,7 @@
   function fmt(key, values) {
     return (S[key] || key).replace(/%\((\w+)\)s/g, function (_, n) { return values[n]; });
   }
-  function el(tag, text, cls) {
-    var node = document.createElement(tag);
-    if (text !== undefined && text !== null) node.textContent = text;
-    if (cls) node.className = cls;
-    return node;
-  }
+  var el = window.ebbtideConsole.el;  // one element helper for the whole console
   function randomId() {
     var bytes = new Uint8Array(12);
     window.crypto.getRandomValues(bytes);
