@@ -24,7 +24,7 @@ from server.serving import build_server
 
 ROOT = Path(__file__).resolve().parent.parent
 DEMO = ROOT / "examples" / "brackwater-demo.toml"
-WAIT_SECONDS = 10.0
+WAIT_SECONDS = 20.0  # bounded waits; generous because CI machines are shared and noisy
 
 
 @pytest.fixture
