@@ -204,8 +204,10 @@ def demo(host: str, port: int) -> None:
 @click.argument("db_path", type=click.Path(exists=True, dir_okay=False))
 @click.option("--out", "out_dir", type=click.Path(file_okay=False), required=True,
               help="Folder for the tables; one subfolder per session when the database holds several.")
-def export(db_path: str, out_dir: str) -> None:
+@click.option("--stata", is_flag=True, help="Also write each table as a Stata .dta file.")
+def export(db_path: str, out_dir: str, stata: bool) -> None:
     """Write the export tables of every session stored in DB_PATH."""
+    from analysis.pool import write_stata
     from server.export import export_database
 
     folders = export_database(db_path, out_dir)
@@ -213,7 +215,11 @@ def export(db_path: str, out_dir: str) -> None:
         click.echo(f"{db_path} holds no session; nothing written", err=True)
         sys.exit(1)
     for folder in folders:
-        click.echo(f"wrote {folder}/decisions.csv, rounds.csv, seats.csv, datapackage.json")
+        extra = ""
+        if stata:
+            write_stata(folder)
+            extra = " and .dta"
+        click.echo(f"wrote {folder}/decisions.csv, rounds.csv, seats.csv{extra}, datapackage.json")
 
 
 @main.command()

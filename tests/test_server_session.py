@@ -6,6 +6,7 @@ import csv
 import subprocess
 import sys
 
+import pandas as pd
 import pytest
 from conftest import ROOT, connect_console, connect_phone, wait_until
 
@@ -71,7 +72,8 @@ def test_whole_session_export_matches_independent_replay(session, demo_study, tm
     wait_until(lambda: server.live.state.status == "ended", "the session to end after the last block")
 
     out = tmp_path / "export"
-    command = [sys.executable, "-m", "server.cli", "export", str(server.db_path), "--out", str(out)]
+    command = [sys.executable, "-m", "server.cli", "export", str(server.db_path), "--out", str(out),
+               "--stata"]
     done = subprocess.run(command, cwd=ROOT, capture_output=True, text=True, timeout=60)
     assert done.returncode == 0, done.stderr
     rounds, decisions = read_csv(out / "rounds.csv"), read_csv(out / "decisions.csv")
@@ -93,6 +95,10 @@ def test_whole_session_export_matches_independent_replay(session, demo_study, tm
     assert {row["group_id"] for row in rounds} == {"G01", "G02"}
     crossed = {row["group_id"] for row in rounds if row["crossed"] == "true"}
     assert crossed == {"G02"}
+    # The optional Stata copy holds the same rows (read back with pandas).
+    stata_rounds = pd.read_stata(out / "rounds.dta")
+    assert len(stata_rounds) == len(rounds)
+    assert stata_rounds["stock_after"].tolist() == [int(r["stock_after"]) for r in rounds]
 
 
 def test_phones_never_receive_hidden_values(session):
