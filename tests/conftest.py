@@ -113,6 +113,12 @@ def console_login(url: str, pin: str) -> requests.Session:
     return http
 
 
+def connect_every_seat(server: LiveServer) -> dict[tuple[int, int], Phone]:
+    """One phone per seat card of a running server, keyed by (group, seat), 0-based."""
+    return {(k.group, k.seat): connect_phone(server.url, k.secret, device=f"device-{k.group}-{k.seat}")
+            for k in server.keys}
+
+
 def connect_console(url: str, pin: str) -> Console:
     http = console_login(url, pin)
     cookie = "; ".join(f"{k}={v}" for k, v in http.cookies.items())

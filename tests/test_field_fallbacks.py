@@ -9,7 +9,13 @@ import zipfile
 import pytest
 import requests
 import socketio
-from conftest import WAIT_SECONDS, connect_console, connect_phone, console_login, wait_until
+from conftest import (
+    WAIT_SECONDS,
+    connect_console,
+    connect_every_seat,
+    console_login,
+    wait_until,
+)
 
 from game_logic.rounds import resolve, start_block
 from game_logic.seeding import round_rng
@@ -18,8 +24,7 @@ from game_logic.seeding import round_rng
 @pytest.fixture
 def session(start_server, demo_study):
     server = start_server(demo_study)
-    phones = {(k.group, k.seat): connect_phone(server.url, k.secret, device=f"device-{k.group}-{k.seat}")
-              for k in server.keys}
+    phones = connect_every_seat(server)
     console = connect_console(server.url, server.pin)
     assert console.act("console_start")["ok"]
     yield server, phones, console

@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
-from conftest import WAIT_SECONDS, connect_console, connect_phone
+from conftest import WAIT_SECONDS, connect_console, connect_every_seat
 from helpers_study import make_study
 
 from game_logic.rounds import resolve, start_block
@@ -92,8 +92,7 @@ def players(start_server):
     study = make_study(groups=2, seats=2, initial=80, max_harvest=CAP, rounds=100)
     server = start_server(study, seed=5550123)
     server.app.config["EBBTIDE_FLOOD_EVENTS"] = 10**6  # this test is about shapes, not rates
-    phones = {(k.group, k.seat): connect_phone(server.url, k.secret, device=f"device-{k.group}-{k.seat}")
-              for k in server.keys}
+    phones = connect_every_seat(server)
     console = connect_console(server.url, server.pin)
     yield study, server, phones, console
     for phone in phones.values():

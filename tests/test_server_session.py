@@ -8,7 +8,7 @@ import sys
 
 import pandas as pd
 import pytest
-from conftest import ROOT, connect_console, connect_phone, wait_until
+from conftest import ROOT, connect_console, connect_every_seat, connect_phone, wait_until
 
 from game_logic.rounds import next_block, resolve, start_block
 from game_logic.seeding import round_rng
@@ -52,8 +52,7 @@ def play_block(phones, block, live):
 @pytest.fixture
 def session(start_server, demo_study):
     server = start_server(demo_study)
-    phones = {(k.group, k.seat): connect_phone(server.url, k.secret, device=f"device-{k.group}-{k.seat}")
-              for k in server.keys}
+    phones = connect_every_seat(server)
     console = connect_console(server.url, server.pin)
     yield server, phones, console
     for phone in phones.values():

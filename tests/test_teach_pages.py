@@ -10,7 +10,7 @@ import json
 
 import pytest
 import requests
-from conftest import connect_console, connect_phone, console_login, wait_until
+from conftest import connect_console, connect_every_seat, console_login, wait_until
 from teach_study import RECOVERY, THRESHOLD, TREATMENTS, teach_study
 
 from server.replay import replay
@@ -23,8 +23,7 @@ HIDDEN = (f"{THRESHOLD:.2f}", f"{RECOVERY:.1f}")
 def session(start_server):
     server = start_server(teach_study(talk_seconds=30), seed=11)
     console = connect_console(server.url, server.pin)
-    phones = {(k.group, k.seat): connect_phone(server.url, k.secret, device=f"device-{k.group}-{k.seat}")
-              for k in server.keys}
+    phones = connect_every_seat(server)
     yield server, console, phones
     for phone in phones.values():
         phone.close()
