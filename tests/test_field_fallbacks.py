@@ -222,8 +222,11 @@ def test_second_device_shows_on_the_console_and_release_leaves_only_the_card_hol
         wait_until(lambda: back_seen["snapshots"], "a snapshot after taking the seat back")
         assert back.call("harvest", {"decision_id": "after-release", "block": 1, "round": 1, "harvest": 2},
                          timeout=WAIT_SECONDS)["ok"]
+        # The console hears of the reconnect and of the harvest in two states: wait for the latter.
         seat = wait_until(lambda: console.states[-1]["groups"][0]["seats"][0]["devices"] == 1
-                          and console.states[-1]["groups"][0]["seats"][0], "one device after the release")
+                          and console.states[-1]["groups"][0]["seats"][0]["decided"]
+                          and console.states[-1]["groups"][0]["seats"][0],
+                          "one device, decided, after the release")
         assert seat["released"] and seat["decided"]
     finally:
         back.disconnect()
