@@ -1,6 +1,6 @@
 """Named exceptions of the analysis; the CLI turns them into clear messages."""
 
-from game_logic.errors import EbbtideError
+from ebbtide.game_logic.errors import EbbtideError
 
 
 class ExportFolderError(EbbtideError):

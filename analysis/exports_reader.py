@@ -8,9 +8,9 @@ from pathlib import Path
 
 import pandas as pd
 
-from exports.schema import CONTRACT
-from game_logic.errors import StudyError
-from game_logic.study import Study, parse_study
+from ebbtide.exports.schema import CONTRACT
+from ebbtide.game_logic.errors import StudyError
+from ebbtide.game_logic.study import Study, parse_study
 
 from .errors import ExportFolderError
 

@@ -12,8 +12,12 @@ from functools import cache
 import numpy as np
 import pandas as pd
 
-from game_logic.benchmarks import equal_share_of_sustainable_yield, optimal_group_policy, selfish_group_take
-from game_logic.study import Study
+from ebbtide.game_logic.benchmarks import (
+    equal_share_of_sustainable_yield,
+    optimal_group_policy,
+    selfish_group_take,
+)
+from ebbtide.game_logic.study import Study
 
 from .exports_reader import ExportData
 

@@ -13,7 +13,7 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 from pathlib import Path
 
-from exports.schema import CONTRACT
+from ebbtide.exports.schema import CONTRACT
 
 from .errors import PoolError
 from .exports_reader import TABLES, read_export, read_package

@@ -16,8 +16,8 @@ import jinja2
 import numpy as np
 import pandas as pd
 
-from game_logic.benchmarks import equal_share_of_sustainable_yield, maximum_sustainable_yield
-from game_logic.design_review import design_summary
+from ebbtide.game_logic.benchmarks import equal_share_of_sustainable_yield, maximum_sustainable_yield
+from ebbtide.game_logic.design_review import design_summary
 
 from . import figures
 from .comparisons import block_comparisons, treatment_comparisons

@@ -12,7 +12,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from game_logic.early_warning import kendall_trend, rolling_lag1_autocorrelation, rolling_variance
+from ebbtide.game_logic.early_warning import kendall_trend, rolling_lag1_autocorrelation, rolling_variance
 
 from .group_outcomes import KEYS
 

@@ -9,8 +9,8 @@ from __future__ import annotations
 import statistics
 import time
 
-from game_logic.benchmarks import optimal_group_policy, threshold_belief
-from game_logic.study import parse_study
+from ebbtide.game_logic.benchmarks import optimal_group_policy, threshold_belief
+from ebbtide.game_logic.study import parse_study
 
 # An invented stock of 1,000 units; only the grid size matters for the timing.
 STUDY = """

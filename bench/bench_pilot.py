@@ -12,9 +12,9 @@ import time
 import tracemalloc
 from pathlib import Path
 
-from exports.build import tables_from_outcomes
-from game_logic.pilot import run_pilot
-from game_logic.study import load_study
+from ebbtide.exports.build import tables_from_outcomes
+from ebbtide.game_logic.pilot import run_pilot
+from ebbtide.game_logic.study import load_study
 
 ROOT = Path(__file__).resolve().parent.parent
 

@@ -28,8 +28,8 @@ sys.path.insert(0, str(ROOT / "tests"))
 
 from helpers_study import make_study  # noqa: E402
 
-from server import create_app  # noqa: E402
-from server.serving import build_server  # noqa: E402
+from ebbtide.server import create_app  # noqa: E402
+from ebbtide.server.serving import build_server  # noqa: E402
 
 
 def main() -> None:

@@ -30,7 +30,7 @@ import socketio
 ROOT = Path(__file__).resolve().parent.parent
 sys.path.insert(0, str(ROOT))
 
-from server.store import Store  # noqa: E402
+from ebbtide.server.store import Store  # noqa: E402
 
 SEATS = 4
 
@@ -44,8 +44,8 @@ def study_text(groups: int) -> str:
 
 def start_server(study: Path, db: Path) -> tuple[subprocess.Popen, str]:
     proc = subprocess.Popen(
-        [sys.executable, "-m", "server.cli", "serve", str(study), "--db", str(db), "--host", "127.0.0.1",
-         "--port", "0", "--pin", "9999", "--seed", "3"],
+        [sys.executable, "-m", "ebbtide.server.cli", "serve", str(study), "--db", str(db),
+         "--host", "127.0.0.1", "--port", "0", "--pin", "9999", "--seed", "3"],
         cwd=ROOT, stdout=subprocess.PIPE, text=True,
     )
     deadline = time.monotonic() + 30

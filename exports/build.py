@@ -4,8 +4,8 @@ from __future__ import annotations
 
 from collections.abc import Callable, Iterable
 
-from game_logic.rounds import RoundOutcome
-from game_logic.study import Study
+from ebbtide.game_logic.rounds import RoundOutcome
+from ebbtide.game_logic.study import Study
 
 from .tables import decision_rows, round_row, seat_rows
 

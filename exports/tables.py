@@ -5,9 +5,9 @@ from __future__ import annotations
 from collections.abc import Iterable
 from decimal import Decimal
 
-from game_logic.payoffs import payment, points
-from game_logic.rounds import RoundOutcome
-from game_logic.study import Study
+from ebbtide.game_logic.payoffs import payment, points
+from ebbtide.game_logic.rounds import RoundOutcome
+from ebbtide.game_logic.study import Study
 
 
 def group_code(group: int) -> str:

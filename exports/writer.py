@@ -7,7 +7,7 @@ import hashlib
 import json
 from pathlib import Path
 
-from game_logic.study import Study
+from ebbtide.game_logic.study import Study
 
 from .schema import CONTRACT, Column
 

@@ -8,11 +8,11 @@ from pathlib import Path
 
 import click
 
-from game_logic.errors import StudyError
-from game_logic.study import Study, load_study
+from ebbtide.game_logic.errors import StudyError
+from ebbtide.game_logic.study import Study, load_study
+from ebbtide.server.resources import example_study
 
-ROOT = Path(__file__).resolve().parent.parent
-DEMO_STUDY = ROOT / "examples" / "brackwater-demo.toml"
+DEMO_STUDY_FILE = "brackwater-demo.toml"
 
 
 def _load(path: str) -> Study:
@@ -35,7 +35,7 @@ def main() -> None:
 @click.argument("study_file", type=click.Path(dir_okay=False))
 def check(study_file: str) -> None:
     """Validate STUDY_FILE and print a one-screen summary of the design."""
-    from game_logic.design_review import design_summary, design_warnings
+    from ebbtide.game_logic.design_review import design_summary, design_warnings
 
     study = _load(study_file)
     for line in design_summary(study):
@@ -58,9 +58,9 @@ def check(study_file: str) -> None:
               help="Folder for decisions.csv, rounds.csv, seats.csv and datapackage.json.")
 def pilot(study_file: str, groups: int, seed: int, strategy: str, out_dir: str) -> None:
     """Simulate groups offline through STUDY_FILE and write the export tables."""
-    from exports.build import tables_from_outcomes
-    from exports.writer import write_export
-    from game_logic.pilot import run_pilot
+    from ebbtide.exports.build import tables_from_outcomes
+    from ebbtide.exports.writer import write_export
+    from ebbtide.game_logic.pilot import run_pilot
 
     study = _load(study_file)
     run = run_pilot(study, groups=groups, seed=seed, strategy=strategy)
@@ -85,8 +85,8 @@ def pilot(study_file: str, groups: int, seed: int, strategy: str, out_dir: str) 
 @click.option("--stata", is_flag=True, help="Also write each table as a Stata .dta file.")
 def pool(folders: tuple[str, ...], out_dir: str, stata: bool) -> None:
     """Merge the export folders FOLDERS of many sessions into one pooled folder."""
-    from analysis.pool import pool_exports
-    from game_logic.errors import EbbtideError
+    from ebbtide.analysis.pool import pool_exports
+    from ebbtide.game_logic.errors import EbbtideError
 
     try:
         result = pool_exports(folders, out_dir, stata=stata)
@@ -107,8 +107,8 @@ def pool(folders: tuple[str, ...], out_dir: str, stata: bool) -> None:
               help="Seed of the resampling (bootstrap, permutation test, selfish benchmark).")
 def report(folder: str, out_file: str, seed: int) -> None:
     """Write a self-contained HTML analysis report of the export FOLDER."""
-    from analysis.report import write_report
-    from game_logic.errors import EbbtideError
+    from ebbtide.analysis.report import write_report
+    from ebbtide.game_logic.errors import EbbtideError
 
     try:
         written = write_report(folder, out_file, seed=seed)
@@ -119,7 +119,7 @@ def report(folder: str, out_file: str, seed: int) -> None:
 
 
 def _announce(app, host: str, db_path: Path, created: bool) -> Callable[[int], None]:
-    from server.netaddr import reachable_host
+    from ebbtide.server.netaddr import reachable_host
 
     def announce(port: int) -> None:
         base = f"http://{reachable_host(host)}:{port}"
@@ -142,9 +142,9 @@ def _announce(app, host: str, db_path: Path, created: bool) -> Callable[[int], N
 def _run_session(
     study: Study, db_path: Path, host: str, port: int, seed: int | None, pin: str | None
 ) -> None:
-    from server import create_app
-    from server.refusals import Refused
-    from server.serving import serve as serve_forever
+    from ebbtide.game_logic.errors import Refused
+    from ebbtide.server import create_app
+    from ebbtide.server.serving import serve as serve_forever
 
     config = {"EBBTIDE_DB": str(db_path), "EBBTIDE_STUDY": study, "EBBTIDE_SEED": seed, "EBBTIDE_PIN": pin}
     try:
@@ -195,7 +195,7 @@ def demo(host: str, port: int) -> None:
     """Start the built-in demo session (2 groups of 2 seats) on a fresh database in a temp folder."""
     import tempfile
 
-    study = _load(str(DEMO_STUDY))
+    study = _load(str(example_study(DEMO_STUDY_FILE)))
     folder = Path(tempfile.mkdtemp(prefix="ebbtide-demo-"))
     _run_session(study, folder / "demo.db", host, port, None, None)
 
@@ -207,8 +207,8 @@ def demo(host: str, port: int) -> None:
 @click.option("--stata", is_flag=True, help="Also write each table as a Stata .dta file.")
 def export(db_path: str, out_dir: str, stata: bool) -> None:
     """Write the export tables of every session stored in DB_PATH."""
-    from analysis.pool import write_stata
-    from server.export import export_database
+    from ebbtide.analysis.pool import write_stata
+    from ebbtide.server.store.export import export_database
 
     folders = export_database(db_path, out_dir)
     if not folders:
@@ -239,10 +239,10 @@ def rehearse(db_path: str, url: str, strategy: str, group_codes: str, seed: int,
 
     Pace the session from the console as usual; bots answer every round they are shown.
     """
-    from exports.tables import group_code
-    from game_logic.study import parse_study
-    from server.rehearsal import rehearse as play
-    from server.store import Store
+    from ebbtide.exports.tables import group_code
+    from ebbtide.game_logic.study import parse_study
+    from ebbtide.server.rehearsal import rehearse as play
+    from ebbtide.server.store import Store
 
     with Store(db_path) as store:
         records = store.sessions()

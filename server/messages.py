@@ -9,7 +9,9 @@ from __future__ import annotations
 
 from typing import Annotated, Literal
 
-from pydantic import BaseModel, ConfigDict, Field, StringConstraints
+from pydantic import BaseModel, ConfigDict, Field, StringConstraints, ValidationError
+
+from ebbtide.game_logic.errors import Refused
 
 SeatSecret = Annotated[str, StringConstraints(pattern=r"^[A-Za-z0-9_-]{16,64}$")]
 ClientId = Annotated[str, StringConstraints(pattern=r"^[A-Za-z0-9_-]{8,64}$")]
@@ -107,3 +109,17 @@ class PaperSlips(_Message):
 
 class Empty(_Message):
     """A facilitator action that takes no arguments."""
+
+
+def from_validation_error(exc: ValidationError) -> Refused:
+    """Turn pydantic's report on a bad socket payload into one readable refusal."""
+    parts = []
+    for error in exc.errors():
+        key = ".".join(str(p) for p in error["loc"]) or "payload"
+        if error["type"] == "extra_forbidden":
+            parts.append(f"{key}: unknown field")
+        elif error["type"] == "missing":
+            parts.append(f"{key}: required field is missing")
+        else:
+            parts.append(f"{key}: {error['msg']}")
+    return Refused("bad_request", "; ".join(parts))

@@ -16,10 +16,10 @@ from dataclasses import dataclass, field
 import numpy as np
 import socketio
 
-from game_logic.benchmarks import equal_share_of_sustainable_yield
-from game_logic.seeding import strategy_rng
-from game_logic.strategies import choose_from_view
-from game_logic.study import Study
+from ebbtide.game_logic.benchmarks import equal_share_of_sustainable_yield
+from ebbtide.game_logic.seeding import strategy_rng
+from ebbtide.game_logic.strategies import choose_from_view
+from ebbtide.game_logic.study import Study
 
 from .store import SeatKey
 

@@ -1,4 +1,6 @@
-"""Socket events of phones and the console: validate -> call the session -> emit to rooms.
+"""The socket edge: who is connected, rooms, senders, flood limits and the checked handler wrapper.
+
+The events themselves live with their client: ``phone/events.py`` and ``console/events.py``.
 
 Phones identify themselves on every (re)connect with their seat secret and get
 a full snapshot with a sequence number, so a missed event never matters. What
@@ -17,26 +19,15 @@ from collections.abc import Callable
 from dataclasses import dataclass
 
 from flask import current_app, request, session
-from flask_socketio import ConnectionRefusedError, disconnect, emit, join_room
+from flask_socketio import ConnectionRefusedError, emit, join_room
 from pydantic import BaseModel, ValidationError
 
-from . import socketio
-from .live import LiveSession, Registry
-from .messages import (
-    ConsoleAuth,
-    ConsoleCorrection,
-    ConsoleHarvest,
-    Empty,
-    GroupAction,
-    GroupTarget,
-    HarvestRequest,
-    PaperSlips,
-    PhoneAuth,
-    SeatAction,
-)
-from .phone_view import remember_language
-from .refusals import Refused, from_validation_error
-from .talk import refuse_during_talk, register_console_events
+from ebbtide.game_logic.errors import Refused
+
+from .app import socketio
+from .messages import ConsoleAuth, PhoneAuth, from_validation_error
+from .phone.view import remember_language
+from .registry import LiveSession, Registry
 
 FLOOD_EVENTS = 20  # per phone connection, within FLOOD_SECONDS; a person taps far less
 CONSOLE_FLOOD_EVENTS = 60  # a facilitator typing slips seat by seat clicks more often
@@ -188,7 +179,7 @@ def on_connect(auth=None):
     )
     join_room(group_room(live.session_id, key.group))
     join_room(seat_room(live.session_id, key.group, key.seat))
-    remember_language(live, key.group, key.seat)  # teach: the seat's words follow its phone
+    remember_language(live, key.group, key.seat)  # the seat's words follow its phone
     emit("snapshot", live.seat_snapshot(key.group, key.seat))
     send_console(live)
 
@@ -224,192 +215,3 @@ def _session_just_ended(live: LiveSession, change) -> bool:
     return bool(change.resolved) and live.state.status == "ended"
 
 
-@edge("harvest", HarvestRequest, role="phone")
-def on_harvest(conn: Connection, live: LiveSession, msg: HarvestRequest):
-    """A seat's harvest: stored (committed) before it is acknowledged."""
-    own = (conn.group + 1, conn.seat + 1)
-    if (msg.group or own[0], msg.seat or own[1]) != own:
-        raise Refused("not_your_seat", f"this phone holds group {own[0]}, seat {own[1]}; "
-                      "a phone decides only for its own seat")
-    body = {
-        "group": conn.group, "seat": conn.seat, "block": msg.block, "round": msg.round,
-        "harvest": msg.harvest, "source": conn.agent,
-    }
-    if msg.decision_id not in live.state.receipts:  # teach: no choices while the group talks
-        refuse_during_talk(live, conn.group, msg.block, msg.round)
-    change = live.submit("harvest_submitted", body, decision_id=msg.decision_id)
-    if change.is_new:
-        if _session_just_ended(live, change):
-            send_everyone(live)
-        elif change.resolved:
-            send_group(live, conn.group)
-        else:
-            send_seat(live, conn.group, conn.seat)
-        send_console(live)
-    receipt = change.receipt
-    return {
-        "ok": True, "decision_id": msg.decision_id, "seq": change.seq, "repeated": not change.is_new,
-        "block": receipt.block, "round": receipt.round, "harvest": receipt.harvest,
-    }
-
-
-@edge("snapshot_please", Empty, role="phone")
-def on_snapshot_request(conn: Connection, live: LiveSession, msg: Empty):
-    """A phone that doubts its screen asks for the full state again."""
-    return {"ok": True, "snapshot": live.seat_snapshot(conn.group, conn.seat)}
-
-
-def _session_action(kind: str) -> Callable:
-    def handler(conn: Connection, live: LiveSession, msg: Empty):
-        change = live.submit(kind, {})
-        send_everyone(live)
-        return {"ok": True, "seq": change.seq}
-
-    handler.__doc__ = f"Facilitator: record {kind} and tell everyone."
-    return handler
-
-
-for _event, _kind in (
-    ("console_start", "session_started"),
-    ("console_pause", "session_paused"),
-    ("console_resume", "session_resumed"),
-    ("console_end", "session_ended"),
-):
-    edge(_event, Empty, role="console")(_session_action(_kind))
-
-
-def _groups(live: LiveSession, target: GroupTarget, ready: Callable[[int], bool]) -> list[int]:
-    if target.group is None:
-        chosen = [g for g in range(live.study.groups.count) if ready(g)]
-        if not chosen:
-            raise Refused("nothing_to_do", "no group is in a state where this applies")
-        return chosen
-    if target.group > live.study.groups.count:
-        count = live.study.groups.count
-        raise Refused("unknown_group", f"group {target.group} does not exist; allowed: 1..{count}")
-    return [target.group - 1]
-
-
-@edge("console_close_round", GroupTarget, role="console")
-def on_close_round(conn: Connection, live: LiveSession, msg: GroupTarget):
-    """Facilitator: resolve the open round now; seats that have not decided take 0."""
-
-    def open_round(g: int) -> bool:
-        progress = live.state.groups[g]
-        return not (progress.waiting or progress.state.block_over)
-
-    for g in _groups(live, msg, open_round):
-        state = live.state.groups[g].state
-        live.submit("round_closed", {"group": g, "block": state.block + 1, "round": state.round + 1})
-        send_group(live, g)
-    if live.state.status == "ended":
-        send_everyone(live)  # the last round closed ended the session: every phone hears it
-    send_console(live)
-    return {"ok": True, "seq": live.state.seq}
-
-
-@edge("console_open_block", GroupTarget, role="console")
-def on_open_block(conn: Connection, live: LiveSession, msg: GroupTarget):
-    """Facilitator: move a group (or every waiting group) into its next block."""
-    for g in _groups(live, msg, lambda g: live.state.groups[g].waiting):
-        live.submit("block_opened", {"group": g})
-        send_group(live, g)
-    send_console(live)
-    return {"ok": True, "seq": live.state.seq}
-
-
-# teach: the console extends or ends a group's talk pause (server/talk.py)
-register_console_events(edge, send_group, send_console)
-
-
-# -- console fall-backs: a dead phone, paper slips, a paused group, a correction, a released seat --
-
-
-def _console_body(msg, **extra) -> dict:
-    body = {"group": msg.group - 1, "block": msg.block, "round": msg.round, "source": "console",
-            "by": msg.by or "console"}
-    body.update(extra)
-    return body
-
-
-def _after_group_change(live: LiveSession, group: int, change) -> None:
-    if change.is_new:
-        if _session_just_ended(live, change):
-            send_everyone(live)
-        else:
-            send_group(live, group)
-        send_console(live)
-
-
-def _check_group(live: LiveSession, group: int) -> None:
-    if group > live.study.groups.count:
-        count = live.study.groups.count
-        raise Refused("unknown_group", f"group {group} does not exist; allowed: 1..{count}")
-
-
-@edge("console_enter", ConsoleHarvest, role="console")
-def on_console_enter(conn: Connection, live: LiveSession, msg: ConsoleHarvest):
-    """Facilitator: enter a harvest for a seat whose phone died (source ``console``)."""
-    _check_group(live, msg.group)
-    body = _console_body(msg, seat=msg.seat - 1, harvest=msg.harvest)
-    change = live.submit("harvest_submitted", body, decision_id=msg.decision_id)
-    _after_group_change(live, msg.group - 1, change)
-    return {"ok": True, "seq": change.seq, "repeated": not change.is_new}
-
-
-@edge("console_correct", ConsoleCorrection, role="console")
-def on_console_correct(conn: Connection, live: LiveSession, msg: ConsoleCorrection):
-    """Facilitator: replace a seat's entry of the open round with a new one (the old stays logged)."""
-    _check_group(live, msg.group)
-    body = _console_body(msg, seat=msg.seat - 1, harvest=msg.harvest, supersedes=msg.supersedes)
-    change = live.submit("harvest_corrected", body, decision_id=msg.decision_id)
-    _after_group_change(live, msg.group - 1, change)
-    return {"ok": True, "seq": change.seq, "repeated": not change.is_new}
-
-
-@edge("console_slips", PaperSlips, role="console")
-def on_console_slips(conn: Connection, live: LiveSession, msg: PaperSlips):
-    """Facilitator: a whole group's round from paper slips, stored together or not at all."""
-    _check_group(live, msg.group)
-    if len(msg.harvests) != live.study.seats:
-        raise Refused("bad_request", f"{len(msg.harvests)} slips given; allowed: one per seat, "
-                      f"{live.study.seats} (leave a seat empty to keep it as it is)")
-    requests = [
-        ("harvest_submitted", _console_body(msg, seat=s, harvest=h, slip=True), f"{msg.batch_id}-s{s + 1}")
-        for s, h in enumerate(msg.harvests) if h is not None
-    ]
-    if not requests:
-        raise Refused("nothing_to_do", "every slip is empty; type at least one harvest")
-    change = live.submit_many(requests)
-    _after_group_change(live, msg.group - 1, change)
-    return {"ok": True, "seq": change.seq, "repeated": not change.is_new, "entered": len(requests)}
-
-
-def _group_toggle(kind: str) -> Callable:
-    def handler(conn: Connection, live: LiveSession, msg: GroupAction):
-        _check_group(live, msg.group)
-        change = live.submit(kind, {"group": msg.group - 1, "by": msg.by or "console"})
-        _after_group_change(live, msg.group - 1, change)
-        return {"ok": True, "seq": change.seq}
-
-    handler.__doc__ = f"Facilitator: record {kind} for one group."
-    return handler
-
-
-edge("console_pause_group", GroupAction, role="console")(_group_toggle("group_paused"))
-edge("console_resume_group", GroupAction, role="console")(_group_toggle("group_resumed"))
-
-
-@edge("console_release_seat", SeatAction, role="console")
-def on_console_release_seat(conn: Connection, live: LiveSession, msg: SeatAction):
-    """Facilitator: let go of every device on a seat; the next one must present the card again."""
-    _check_group(live, msg.group)
-    group, seat = msg.group - 1, msg.seat - 1
-    change = live.submit("seat_released", {"group": group, "seat": seat, "by": msg.by or "console"})
-    notice = Refused("seat_released", "the facilitator released this seat; "
-                     "scan your seat card again to take it back").as_event("seat_released")
-    socketio.emit("seat_released", notice, to=seat_room(live.session_id, group, seat))
-    for sid in registry().seat_sids(group, seat):
-        disconnect(sid=sid, namespace="/")
-    send_console(live)
-    return {"ok": True, "seq": change.seq}

@@ -12,10 +12,10 @@ import shutil
 import tempfile
 from pathlib import Path
 
-from exports.build import tables_from_outcomes
-from exports.writer import write_export
-from game_logic.pilot import run_pilot
-from game_logic.study import load_study, parse_study
+from ebbtide.exports.build import tables_from_outcomes
+from ebbtide.exports.writer import write_export
+from ebbtide.game_logic.pilot import run_pilot
+from ebbtide.game_logic.study import load_study, parse_study
 
 ROOT = Path(__file__).resolve().parent.parent
 EXAMPLES = ROOT / "examples"

@@ -18,9 +18,9 @@ import pytest
 import requests
 import socketio
 
-from game_logic.study import Study, load_study, parse_study
-from server import create_app
-from server.serving import build_server
+from ebbtide.game_logic.study import Study, load_study, parse_study
+from ebbtide.server import create_app
+from ebbtide.server.serving import build_server
 
 ROOT = Path(__file__).resolve().parent.parent
 DEMO = ROOT / "examples" / "brackwater-demo.toml"
@@ -185,7 +185,7 @@ class ServeProcess:
 
     def __init__(self, *args: str):
         self.proc = subprocess.Popen(
-            [sys.executable, "-m", "server.cli", *args, "--host", "127.0.0.1", "--port", "0"],
+            [sys.executable, "-m", "ebbtide.server.cli", *args, "--host", "127.0.0.1", "--port", "0"],
             cwd=ROOT, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True,
         )
         self.lines: queue.Queue[str] = queue.Queue()

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from game_logic.study import parse_study
+from ebbtide.game_logic.study import parse_study
 
 BASE = """
 [session]

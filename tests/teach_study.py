@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from game_logic.study import parse_study
+from ebbtide.game_logic.study import parse_study
 
 # A distinctive hidden threshold: any leak of it (or of its recovery level) is easy to find.
 THRESHOLD = 37.913

@@ -10,9 +10,9 @@ from lifelines.statistics import logrank_test
 from numpy.testing import assert_allclose
 from scipy import stats
 
-from analysis.comparisons import compare_paired, compare_two
-from analysis.panel import fit_panel_models, panel_frame
-from analysis.survival import good_regime_survival, kaplan_meier
+from ebbtide.analysis.comparisons import compare_paired, compare_two
+from ebbtide.analysis.panel import fit_panel_models, panel_frame
+from ebbtide.analysis.survival import good_regime_survival, kaplan_meier
 
 
 def test_mann_whitney_u_and_p_match_scipy_and_hand_counted_effect_sizes():

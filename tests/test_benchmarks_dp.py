@@ -8,14 +8,14 @@ import numpy as np
 import pytest
 from numpy.testing import assert_allclose
 
-from game_logic.benchmarks import (
+from ebbtide.game_logic.benchmarks import (
     optimal_group_policy,
     selfish_group_take,
     threshold_belief,
 )
-from game_logic.resource import next_regime, regrow
-from game_logic.rounds import advance
-from game_logic.study import parse_study
+from ebbtide.game_logic.resource import next_regime, regrow
+from ebbtide.game_logic.rounds import advance
+from ebbtide.game_logic.study import parse_study
 
 TEMPLATE = """
 [session]

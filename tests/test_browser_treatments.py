@@ -14,8 +14,8 @@ import pytest
 from conftest import ARTIFACTS, connect_console, connect_phone, wait_until
 from teach_study import TREATMENTS, teach_study
 
-from server import create_app
-from server.serving import build_server
+from ebbtide.server import create_app
+from ebbtide.server.serving import build_server
 
 pytestmark = pytest.mark.browser
 

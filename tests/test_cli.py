@@ -10,7 +10,7 @@ from pathlib import Path
 import pytest
 from click.testing import CliRunner
 
-from server.cli import main
+from ebbtide.server.cli import main
 
 ROOT = Path(__file__).parent.parent
 DEMO = ROOT / "examples" / "brackwater-demo.toml"
@@ -64,7 +64,7 @@ def test_pilot_writes_the_contract_tables(tmp_path):
 def test_pilot_is_byte_for_byte_reproducible(tmp_path):
     def run(out):
         subprocess.run(
-            [sys.executable, "-m", "server.cli", "pilot", str(DEMO), "--groups", "20",
+            [sys.executable, "-m", "ebbtide.server.cli", "pilot", str(DEMO), "--groups", "20",
              "--seed", "9", "--strategy", "conditional", "--out", str(out)],
             cwd=ROOT, check=True, capture_output=True,
         )

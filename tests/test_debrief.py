@@ -6,10 +6,10 @@ import numpy as np
 import pytest
 from numpy.testing import assert_allclose
 
-from game_logic.debrief import CAUTION, debrief_block, debrief_group, regrowth_lost, what_if
-from game_logic.rounds import Regime, next_block, resolve, start_block
-from game_logic.seeding import round_rng
-from game_logic.study import parse_study
+from ebbtide.game_logic.debrief import CAUTION, debrief_block, debrief_group, regrowth_lost, what_if
+from ebbtide.game_logic.rounds import Regime, next_block, resolve, start_block
+from ebbtide.game_logic.seeding import round_rng
+from ebbtide.game_logic.study import parse_study
 
 # Invented Ulmsby reed-bed study: numbers made up for the tests.
 STUDY_TOML = """
@@ -202,7 +202,7 @@ def test_regrowth_lost_total_matches_sum():
 def test_zero_cut_reproduces_every_pilot_group_exactly():
     # The pilot shares resolve's generators (game_logic.pilot), so a zero-cut
     # replay of each simulated group must land on the same stocks.
-    from game_logic.pilot import run_pilot
+    from ebbtide.game_logic.pilot import run_pilot
 
     study = make_study(flip=0.6, treatment="risk", rounds=6)
     run = run_pilot(study, 12, SEED, "conditional")

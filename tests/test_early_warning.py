@@ -6,7 +6,7 @@ import pytest
 from numpy.testing import assert_allclose
 from scipy import optimize
 
-from game_logic.early_warning import (
+from ebbtide.game_logic.early_warning import (
     BANDS,
     TRENDS,
     HealthSignal,
@@ -19,7 +19,7 @@ from game_logic.early_warning import (
     rolling_lag1_autocorrelation,
     rolling_variance,
 )
-from game_logic.resource import grazing
+from ebbtide.game_logic.resource import grazing
 
 # The grazing law of the fold test: x' = x(1 - x/10) - c x^2/(1 + x^2) (May 1977,
 # Nature 269:471; the same form as the budworm model in Strogatz, Nonlinear
@@ -186,10 +186,10 @@ def test_health_reading_rejects_nonpositive_capacity():
 
 
 def test_signal_view_carries_words_only_and_not_the_threshold():
-    from game_logic.rounds import resolve, start_block
-    from game_logic.seeding import round_rng
-    from game_logic.study import parse_study
-    from game_logic.treatments import participant_view
+    from ebbtide.game_logic.rounds import resolve, start_block
+    from ebbtide.game_logic.seeding import round_rng
+    from ebbtide.game_logic.study import parse_study
+    from ebbtide.game_logic.treatments import participant_view
 
     study = parse_study(
         '[session]\nid = "fennick-signal"\ntitle = "Fennick (test)"\n'

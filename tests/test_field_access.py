@@ -12,7 +12,7 @@ import requests
 import socketio
 from conftest import WAIT_SECONDS, connect_console, connect_phone, console_login, wait_until
 
-from server.live import SEAT_SECRET_BYTES
+from ebbtide.server.registry import SEAT_SECRET_BYTES
 
 
 @pytest.fixture

@@ -20,9 +20,9 @@ import socketio
 from conftest import ROOT, ServeProcess, connect_phone, console_login
 from helpers_study import make_study
 
-from game_logic.rounds import resolve, start_block
-from game_logic.seeding import round_rng
-from server.store import Store
+from ebbtide.game_logic.rounds import resolve, start_block
+from ebbtide.game_logic.seeding import round_rng
+from ebbtide.server.store import Store
 
 pytestmark = pytest.mark.slow
 
@@ -168,7 +168,7 @@ def test_sigkill_at_random_moments_loses_no_acknowledged_decision(tmp_path):
         assert audits[key]["stock_after"] == outcome.stock_after
 
     out = tmp_path / "export"
-    done = subprocess.run([sys.executable, "-m", "server.cli", "export", str(db), "--out", str(out)],
+    done = subprocess.run([sys.executable, "-m", "ebbtide.server.cli", "export", str(db), "--out", str(out)],
                           cwd=ROOT, capture_output=True, text=True, timeout=60)
     assert done.returncode == 0, done.stderr
     with (out / "decisions.csv").open(encoding="utf-8", newline="") as handle:

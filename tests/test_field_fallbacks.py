@@ -17,8 +17,8 @@ from conftest import (
     wait_until,
 )
 
-from game_logic.rounds import resolve, start_block
-from game_logic.seeding import round_rng
+from ebbtide.game_logic.rounds import resolve, start_block
+from ebbtide.game_logic.seeding import round_rng
 
 
 @pytest.fixture

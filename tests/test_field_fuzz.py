@@ -14,10 +14,10 @@ import pytest
 from conftest import WAIT_SECONDS, connect_console, connect_every_seat
 from helpers_study import make_study
 
-from game_logic.rounds import resolve, start_block
-from game_logic.seeding import round_rng
-from server.live import console_snapshot
-from server.replay import replay
+from ebbtide.game_logic.rounds import resolve, start_block
+from ebbtide.game_logic.seeding import round_rng
+from ebbtide.game_logic.session_fold import replay
+from ebbtide.server.registry import console_snapshot
 
 MALFORMED = 3000
 VALID_EVERY = 100  # one valid round of group 1 after this many malformed events

@@ -17,7 +17,7 @@ import requests
 import websocket
 from conftest import WAIT_SECONDS, connect_console, wait_until
 
-from game_logic.study import parse_study
+from ebbtide.game_logic.study import parse_study
 
 THRESHOLD = 37.913
 SEED = 8237461905512347

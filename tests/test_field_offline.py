@@ -10,8 +10,8 @@ from pathlib import Path
 import pytest
 from conftest import DEMO, ROOT
 
-from game_logic.study import load_study
-from server import create_app
+from ebbtide.game_logic.study import load_study
+from ebbtide.server import create_app
 
 PIN = "8642"
 VENDOR = ROOT / "static" / "vendor"

@@ -10,11 +10,11 @@ from decimal import Decimal
 import pytest
 from conftest import DEMO, study_with
 
-from game_logic.errors import StudyError
-from game_logic.payoffs import default_denominations, denominations_needed, packing_denominations
-from game_logic.study import load_study
-from server import create_app
-from server.export import export_session
+from ebbtide.game_logic.errors import StudyError
+from ebbtide.game_logic.payoffs import default_denominations, denominations_needed, packing_denominations
+from ebbtide.game_logic.study import load_study
+from ebbtide.server import create_app
+from ebbtide.server.store.export import export_session
 
 PIN = "8642"
 

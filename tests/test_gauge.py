@@ -5,10 +5,10 @@ import xml.etree.ElementTree as ET
 
 import pytest
 
-from game_logic.rounds import start_block
-from game_logic.study import parse_study
-from game_logic.treatments import participant_view
-from server.gauge import DEFAULT_LABELS, stock_gauge_svg
+from ebbtide.game_logic.rounds import start_block
+from ebbtide.game_logic.study import parse_study
+from ebbtide.game_logic.treatments import participant_view
+from ebbtide.server.pictures.gauge import DEFAULT_LABELS, stock_gauge_svg
 
 DANGERS = {
     "none": {"kind": "none"},
@@ -152,9 +152,9 @@ def test_gauge_module_imports_only_the_standard_library():
     import sys
     from pathlib import Path
 
-    import server.gauge
+    import ebbtide.server.pictures.gauge as gauge_module
 
-    tree = ast.parse(Path(server.gauge.__file__).read_text(encoding="utf-8"))
+    tree = ast.parse(Path(gauge_module.__file__).read_text(encoding="utf-8"))
     imported = {alias.name.split(".")[0] for node in ast.walk(tree) if isinstance(node, ast.Import)
                 for alias in node.names}
     imported |= {node.module.split(".")[0] for node in ast.walk(tree)

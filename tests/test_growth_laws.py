@@ -7,13 +7,13 @@ import pytest
 from numpy.testing import assert_allclose
 from scipy.optimize import brentq
 
-from game_logic import resource
-from game_logic.benchmarks import (
+from ebbtide.game_logic import resource
+from ebbtide.game_logic.benchmarks import (
     equilibria,
     gordon_schaefer_open_access,
     maximum_sustainable_yield,
 )
-from game_logic.study import GrowthSpec
+from ebbtide.game_logic.study import GrowthSpec
 
 
 def test_logistic_msy_is_rk_over_4_at_half_capacity():

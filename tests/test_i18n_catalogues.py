@@ -17,7 +17,7 @@ from babel.messages.frontend import parse_mapping_cfg
 from babel.messages.mofile import read_mo
 from babel.messages.pofile import read_po
 
-from game_logic.debrief import CAUTION
+from ebbtide.game_logic.debrief import CAUTION
 
 ROOT = Path(__file__).resolve().parent.parent
 TRANSLATIONS = ROOT / "translations"

@@ -4,8 +4,8 @@ from decimal import Decimal
 
 import pytest
 
-from game_logic.payoffs import denominations_needed, payment, points
-from game_logic.study import PaymentSpec
+from ebbtide.game_logic.payoffs import denominations_needed, payment, points
+from ebbtide.game_logic.study import PaymentSpec
 
 
 def test_points_scale_with_units_taken():

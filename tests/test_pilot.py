@@ -5,10 +5,10 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from game_logic.pilot import run_pilot
-from game_logic.rounds import next_block, resolve, start_block
-from game_logic.seeding import round_rng
-from game_logic.study import load_study
+from ebbtide.game_logic.pilot import run_pilot
+from ebbtide.game_logic.rounds import next_block, resolve, start_block
+from ebbtide.game_logic.seeding import round_rng
+from ebbtide.game_logic.study import load_study
 
 ROOT = Path(__file__).parent.parent
 DEMO = load_study(ROOT / "examples" / "brackwater-demo.toml")

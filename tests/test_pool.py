@@ -12,10 +12,10 @@ from _analysis_exports import ROOT, copy_export, pilot_export
 from click.testing import CliRunner
 from numpy.testing import assert_allclose
 
-from analysis.errors import ExportFolderError, PoolError
-from analysis.exports_reader import read_export
-from analysis.pool import pool_exports
-from server.cli import main
+from ebbtide.analysis.errors import ExportFolderError, PoolError
+from ebbtide.analysis.exports_reader import read_export
+from ebbtide.analysis.pool import pool_exports
+from ebbtide.server.cli import main
 
 
 @pytest.fixture(scope="module")
@@ -101,8 +101,8 @@ def test_pool_command_reports_refusal_and_exit_code(two_sessions, tmp_path):
 
 def test_pool_command_runs_as_a_subprocess(two_sessions, tmp_path):
     done = subprocess.run(
-        [sys.executable, "-m", "server.cli", "pool", *map(str, two_sessions), "--out", str(tmp_path / "p"),
-         "--stata"],
+        [sys.executable, "-m", "ebbtide.server.cli", "pool", *map(str, two_sessions),
+         "--out", str(tmp_path / "p"), "--stata"],
         cwd=ROOT, capture_output=True, text=True, check=False,
     )
     assert done.returncode == 0, done.stderr

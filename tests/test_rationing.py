@@ -4,7 +4,7 @@ import numpy as np
 from hypothesis import given
 from hypothesis import strategies as st
 
-from game_logic.resource import ration
+from ebbtide.game_logic.resource import ration
 
 
 def test_rationing_leaves_requests_alone_when_stock_suffices():

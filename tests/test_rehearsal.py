@@ -7,8 +7,8 @@ import threading
 import numpy as np
 from conftest import connect_console, wait_until
 
-from game_logic.strategies import choose_from_view
-from server.rehearsal import rehearse
+from ebbtide.game_logic.strategies import choose_from_view
+from ebbtide.server.rehearsal import rehearse
 
 VIEW = {"max_harvest": 10, "seats": 3}
 

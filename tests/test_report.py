@@ -9,8 +9,8 @@ import sys
 import pytest
 from _analysis_exports import NO_THRESHOLD, ROOT, pilot_export
 
-from analysis.exports_reader import read_export
-from analysis.report import build_report, write_report
+from ebbtide.analysis.exports_reader import read_export
+from ebbtide.analysis.report import build_report, write_report
 
 
 def sections_by_title(report):
@@ -69,7 +69,7 @@ def test_written_report_is_self_contained_and_writes_csv_tables(tmp_path):
 
 
 def test_report_command_refuses_a_folder_that_is_not_an_export(tmp_path):
-    done = subprocess.run([sys.executable, "-m", "server.cli", "report", str(tmp_path), "--out",
+    done = subprocess.run([sys.executable, "-m", "ebbtide.server.cli", "report", str(tmp_path), "--out",
                            str(tmp_path / "r.html")], cwd=ROOT, capture_output=True, text=True, check=False)
     assert done.returncode == 2
     assert "no datapackage.json" in done.stderr

@@ -5,7 +5,7 @@ from __future__ import annotations
 import pytest
 from _analysis_exports import pilot_export
 
-from analysis.report import write_report
+from ebbtide.analysis.report import write_report
 
 
 @pytest.mark.browser

@@ -7,9 +7,9 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from game_logic.errors import InvalidHarvest, RoundClosed
-from game_logic.rounds import Regime, next_block, resolve, start_block
-from game_logic.seeding import round_rng
+from ebbtide.game_logic.errors import InvalidHarvest, RoundClosed
+from ebbtide.game_logic.rounds import Regime, next_block, resolve, start_block
+from ebbtide.game_logic.seeding import round_rng
 from tests.helpers_study import make_study
 
 STUDY = make_study()
@@ -150,7 +150,7 @@ def test_resolve_keeps_stock_within_bounds_and_takes_at_most_asked(harvests, ini
     }[law]
     text_study = make_study(initial=initial)
     source = text_study.source_text.replace('law = "logistic"', f'law = "{law}"\n{extra}')
-    from game_logic.study import parse_study
+    from ebbtide.game_logic.study import parse_study
 
     study = parse_study(source)
     state = start_block(study, SEED, 0, 0)

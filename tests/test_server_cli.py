@@ -15,7 +15,7 @@ pytestmark = pytest.mark.slow
 
 @pytest.mark.parametrize("command", ["serve", "demo", "export"])
 def test_every_new_command_has_help(command):
-    done = subprocess.run([sys.executable, "-m", "server.cli", command, "--help"], cwd=ROOT,
+    done = subprocess.run([sys.executable, "-m", "ebbtide.server.cli", command, "--help"], cwd=ROOT,
                           capture_output=True, text=True, timeout=60)
     assert done.returncode == 0 and "Usage:" in done.stdout
 
@@ -38,7 +38,7 @@ def test_demo_prints_console_pin_and_seat_cards_and_serves_pages():
 
 def test_serve_refuses_a_malformed_pin_and_says_what_is_allowed(tmp_path):
     done = subprocess.run(
-        [sys.executable, "-m", "server.cli", "serve", "examples/brackwater-demo.toml",
+        [sys.executable, "-m", "ebbtide.server.cli", "serve", "examples/brackwater-demo.toml",
          "--db", str(tmp_path / "x.db"), "--pin", "12ab"],
         cwd=ROOT, capture_output=True, text=True, timeout=60,
     )
@@ -48,7 +48,8 @@ def test_serve_refuses_a_malformed_pin_and_says_what_is_allowed(tmp_path):
 
 def test_export_of_a_missing_database_is_refused(tmp_path):
     done = subprocess.run(
-        [sys.executable, "-m", "server.cli", "export", str(tmp_path / "none.db"), "--out", str(tmp_path)],
+        [sys.executable, "-m", "ebbtide.server.cli", "export", str(tmp_path / "none.db"),
+         "--out", str(tmp_path)],
         cwd=ROOT, capture_output=True, text=True, timeout=60,
     )
     assert done.returncode == 2 and "does not exist" in done.stderr

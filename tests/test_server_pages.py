@@ -7,8 +7,8 @@ import re
 import pytest
 from conftest import DEMO
 
-from game_logic.study import load_study
-from server import create_app
+from ebbtide.game_logic.study import load_study
+from ebbtide.server import create_app
 
 PIN = "8642"
 

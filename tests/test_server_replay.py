@@ -4,10 +4,10 @@ from __future__ import annotations
 
 import pytest
 
-from game_logic.rounds import resolve, start_block
-from game_logic.seeding import round_rng
-from server.refusals import Refused
-from server.replay import SessionState
+from ebbtide.game_logic.errors import Refused
+from ebbtide.game_logic.rounds import resolve, start_block
+from ebbtide.game_logic.seeding import round_rng
+from ebbtide.game_logic.session_fold import SessionState
 
 SEED = 11
 

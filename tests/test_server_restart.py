@@ -5,10 +5,10 @@ from __future__ import annotations
 import pytest
 from conftest import DEMO, ServeProcess, connect_console, connect_phone
 
-from game_logic.rounds import resolve, start_block
-from game_logic.seeding import round_rng
-from game_logic.study import load_study
-from server.store import Store
+from ebbtide.game_logic.rounds import resolve, start_block
+from ebbtide.game_logic.seeding import round_rng
+from ebbtide.game_logic.study import load_study
+from ebbtide.server.store import Store
 
 SEED, PIN = 77, "2468"
 pytestmark = pytest.mark.slow

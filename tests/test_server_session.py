@@ -10,8 +10,8 @@ import pandas as pd
 import pytest
 from conftest import ROOT, connect_console, connect_every_seat, connect_phone, wait_until
 
-from game_logic.rounds import next_block, resolve, start_block
-from game_logic.seeding import round_rng
+from ebbtide.game_logic.rounds import next_block, resolve, start_block
+from ebbtide.game_logic.seeding import round_rng
 
 # Harvests per (group, seat) and round, chosen so that group 2 crosses the danger level
 # and group 1 does not: invented for this test.
@@ -71,7 +71,7 @@ def test_whole_session_export_matches_independent_replay(session, demo_study, tm
     wait_until(lambda: server.live.state.status == "ended", "the session to end after the last block")
 
     out = tmp_path / "export"
-    command = [sys.executable, "-m", "server.cli", "export", str(server.db_path), "--out", str(out),
+    command = [sys.executable, "-m", "ebbtide.server.cli", "export", str(server.db_path), "--out", str(out),
                "--stata"]
     done = subprocess.run(command, cwd=ROOT, capture_output=True, text=True, timeout=60)
     assert done.returncode == 0, done.stderr

@@ -6,7 +6,7 @@ import sqlite3
 
 import pytest
 
-from server.store import SeatKey, SessionRecord, Store
+from ebbtide.server.store import SeatKey, SessionRecord, Store
 
 
 def record(session_id="s-1"):

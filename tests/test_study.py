@@ -4,9 +4,9 @@ from pathlib import Path
 
 import pytest
 
-from game_logic.design_review import design_summary, design_warnings, expected_minutes
-from game_logic.errors import StudyError
-from game_logic.study import load_study, parse_study
+from ebbtide.game_logic.design_review import design_summary, design_warnings, expected_minutes
+from ebbtide.game_logic.errors import StudyError
+from ebbtide.game_logic.study import load_study, parse_study
 
 EXAMPLES = sorted((Path(__file__).parent.parent / "examples").glob("*.toml"))
 DEMO = Path(__file__).parent.parent / "examples" / "brackwater-demo.toml"

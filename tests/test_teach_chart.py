@@ -6,7 +6,7 @@ import re
 
 import pytest
 
-from server.debrief_chart import PHONE, stock_path_svg
+from ebbtide.server.pictures.chart import PHONE, stock_path_svg
 
 BLOCK = {
     "block": 0, "stock_path": [50, 37, 30, 34], "threshold": 37.913, "recovery_level": 52.913,

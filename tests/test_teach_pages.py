@@ -13,7 +13,7 @@ import requests
 from conftest import connect_console, connect_every_seat, console_login, wait_until
 from teach_study import RECOVERY, THRESHOLD, TREATMENTS, teach_study
 
-from server.replay import replay
+from ebbtide.game_logic.session_fold import replay
 
 LEVEL_SHOWN = f"{THRESHOLD:.1f}"
 HIDDEN = (f"{THRESHOLD:.2f}", f"{RECOVERY:.1f}")

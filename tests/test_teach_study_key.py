@@ -5,9 +5,9 @@ from __future__ import annotations
 import pytest
 from teach_study import TEXT
 
-from game_logic.design_review import design_warnings
-from game_logic.errors import StudyError
-from game_logic.study import parse_study
+from ebbtide.game_logic.design_review import design_warnings
+from ebbtide.game_logic.errors import StudyError
+from ebbtide.game_logic.study import parse_study
 
 
 def _study(value: str):

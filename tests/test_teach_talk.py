@@ -4,8 +4,8 @@ from __future__ import annotations
 
 import pytest
 
-from server.refusals import Refused
-from server.talk import RoundKey, TalkPauses
+from ebbtide.game_logic.errors import Refused
+from ebbtide.server.console.talk import RoundKey, TalkPauses
 
 KEY = RoundKey("s", 0, 2, 1)
 

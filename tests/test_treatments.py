@@ -4,9 +4,9 @@ import json
 
 import pytest
 
-from game_logic.rounds import resolve, start_block
-from game_logic.seeding import round_rng
-from game_logic.treatments import participant_view
+from ebbtide.game_logic.rounds import resolve, start_block
+from ebbtide.game_logic.seeding import round_rng
+from ebbtide.game_logic.treatments import participant_view
 from tests.helpers_study import make_study
 
 SEED = 3

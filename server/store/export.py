@@ -9,12 +9,12 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from exports.build import tables_from_outcomes
-from exports.writer import write_export
-from game_logic.study import parse_study
+from ebbtide.exports.build import tables_from_outcomes
+from ebbtide.exports.writer import write_export
+from ebbtide.game_logic.session_fold import SessionState, replay
+from ebbtide.game_logic.study import parse_study
 
-from .replay import SessionState, replay
-from .store import Store
+from .log import Store
 
 EXPORT_SOURCE = "live"
 

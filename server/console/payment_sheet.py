@@ -12,11 +12,11 @@ import io
 from dataclasses import dataclass
 from decimal import Decimal
 
-from exports.tables import group_code, seat_code
-from game_logic.payoffs import denominations_needed, packing_denominations, payment
+from ebbtide.exports.tables import group_code, seat_code
+from ebbtide.game_logic.payoffs import denominations_needed, packing_denominations, payment
+from ebbtide.game_logic.session_fold import SessionState
 
-from .replay import SessionState
-from .store import SeatKey
+from ..store import SeatKey
 
 
 @dataclass(frozen=True)

@@ -11,10 +11,10 @@ from typing import Any
 
 from flask_babel import gettext as _
 
-from game_logic.debrief import GroupDebrief, debrief_group
-from game_logic.rounds import Regime, RoundOutcome
+from ebbtide.game_logic.debrief import GroupDebrief, debrief_group
+from ebbtide.game_logic.rounds import Regime, RoundOutcome
 
-from .debrief_chart import PHONE, WIDE, stock_path_svg
+from ..pictures.chart import PHONE, WIDE, stock_path_svg
 
 
 def finished_outcomes(live, group: int) -> list[RoundOutcome]:

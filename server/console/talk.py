@@ -18,8 +18,9 @@ from dataclasses import dataclass
 
 from flask import current_app
 
-from .messages import GroupTarget
-from .refusals import Refused
+from ebbtide.game_logic.errors import Refused
+
+from ..messages import GroupTarget
 
 EXTEND_SECONDS = 30
 # A phone counts down on its own clock; a harvest sent a moment before the

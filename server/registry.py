@@ -16,14 +16,14 @@ from typing import Any
 
 from werkzeug.security import check_password_hash, generate_password_hash
 
-from exports.tables import group_code, seat_code
-from game_logic.rounds import RoundOutcome
-from game_logic.study import Study, parse_study
+from ebbtide.exports.tables import group_code, seat_code
+from ebbtide.game_logic.errors import Refused
+from ebbtide.game_logic.rounds import RoundOutcome
+from ebbtide.game_logic.session_fold import Receipt, SessionState, replay
+from ebbtide.game_logic.study import Study, parse_study
 
-from .payment_sheet import PaymentSheet, payment_sheet
-from .phone_view import add_to_console_snapshot, add_to_seat_snapshot
-from .refusals import Refused
-from .replay import Receipt, SessionState, replay
+from .console.payment_sheet import PaymentSheet, payment_sheet
+from .phone.view import add_to_console_snapshot, add_to_seat_snapshot
 from .store import SeatKey, SessionRecord, Store
 
 # No 0/O, 1/I: a code read aloud or typed on a small keyboard cannot be mistaken.
@@ -119,7 +119,7 @@ class LiveSession:
 
     def seat_snapshot(self, group: int, seat: int) -> dict[str, Any]:
         with self._lock:
-            # teach: the stock picture, talk countdown and revealed debrief (server/phone_view.py)
+            # the stock picture, talk countdown and revealed debrief (phone/view.py)
             return add_to_seat_snapshot(self, group, seat, self.state.seat_snapshot(group, seat))
 
     def payment_sheet(self) -> PaymentSheet:
@@ -128,7 +128,7 @@ class LiveSession:
 
     def console_snapshot(self, online: dict[tuple[int, int], int] | None = None) -> dict[str, Any]:
         with self._lock:
-            # teach: small gauges, talk countdowns, the signal's parts (server/phone_view.py)
+            # small gauges, talk countdowns, the signal's parts (phone/view.py)
             return add_to_console_snapshot(self, console_snapshot(self.state, self.keys, online or {}))
 
 

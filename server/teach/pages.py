@@ -6,14 +6,14 @@ from flask import Blueprint, current_app, redirect, render_template, url_for
 from flask_babel import get_locale
 from flask_babel import gettext as _
 
-from exports.tables import group_code
-from game_logic.treatments import participant_view
+from ebbtide.exports.tables import group_code
+from ebbtide.game_logic.errors import Refused
+from ebbtide.game_logic.treatments import participant_view
 
-from .gauge import stock_gauge_svg
-from .phone_view import gauge_labels, language_choices, phone_more_strings
-from .refusals import Refused
+from ..phone.view import gauge_labels, language_choices, phone_more_strings
+from ..pictures.gauge import stock_gauge_svg
+from ..web import console_required, live_session
 from .revealed import debrief_blocks
-from .web import console_required, live_session
 
 bp = Blueprint("teach", __name__)
 
@@ -55,7 +55,7 @@ def debrief():
 @console_required
 def reveal():
     """Facilitator: show each phone its own group's debrief (a logged event)."""
-    from .sockets import send_everyone  # sockets registers handlers on import; imported late
+    from ..sockets import send_everyone  # sockets registers handlers on import; imported late
 
     live = live_session()
     try:

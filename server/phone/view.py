@@ -15,12 +15,12 @@ from flask import current_app
 from flask_babel import force_locale, get_locale
 from flask_babel import gettext as _
 
-from game_logic.early_warning import health_reading
-from game_logic.treatments import participant_view
+from ebbtide.game_logic.early_warning import health_reading
+from ebbtide.game_logic.treatments import participant_view
 
-from .gauge import stock_gauge_svg
-from .revealed import phone_debrief
-from .talk import talk_remaining
+from ..console.talk import talk_remaining
+from ..pictures.gauge import stock_gauge_svg
+from ..teach.revealed import phone_debrief
 
 
 def gauge_labels() -> dict[str, str]:

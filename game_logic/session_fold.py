@@ -29,13 +29,13 @@ from collections.abc import Iterable
 from dataclasses import dataclass, field
 from typing import Any
 
-from game_logic.payoffs import points
-from game_logic.rounds import GroupState, RoundOutcome, next_block, resolve, start_block
-from game_logic.seeding import round_rng
-from game_logic.study import Study
-from game_logic.treatments import participant_view
+from ebbtide.game_logic.payoffs import points
+from ebbtide.game_logic.rounds import GroupState, RoundOutcome, next_block, resolve, start_block
+from ebbtide.game_logic.seeding import round_rng
+from ebbtide.game_logic.study import Study
+from ebbtide.game_logic.treatments import participant_view
 
-from .refusals import Refused
+from .errors import Refused
 
 SOURCES = ("phone", "console", "bot")
 # Events that only record what replay derives anyway (kept for people reading the log).

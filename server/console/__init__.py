@@ -1,0 +1,1 @@
+"""The console: the facilitator's pages, events, fall-backs, talk pauses and payment sheet."""

@@ -1,0 +1,1 @@
+"""Teaching: the debrief, handouts, the reveal and the teaching view."""
