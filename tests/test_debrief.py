@@ -142,10 +142,11 @@ def test_stock_is_conserved_and_never_negative_in_actual_and_what_if():
     for replay in block.what_ifs:
         assert min(replay.stock_path) >= 0
         assert max(replay.stock_path) <= 100
-        assert replay.total_taken == sum(replay.taken_per_round)
         # Each round's take fits the stock it was taken from.
         assert all(t <= s for t, s in zip(replay.taken_per_round, replay.stock_path, strict=False))
     assert block.what_ifs[-1].total_taken == 0  # cutting by the cap leaves nothing asked
+    # A zero cut replays the round resolution itself: its total is what the group really took.
+    assert block.what_ifs[0].total_taken == sum(o.total_taken for o in outcomes)
 
 
 def test_what_if_uses_the_same_flip_draws_as_the_group():
@@ -165,7 +166,9 @@ def test_debrief_group_covers_every_block_and_serialises_to_json():
     raw = json.loads(json.dumps(debrief.to_dict()))
     assert raw["caution"] == CAUTION
     assert raw["blocks"][0]["crossed"] is True
-    assert raw["blocks"][0]["total_regrowth_lost"] == sum(raw["blocks"][0]["regrowth_lost"])
+    # The first block crossed: from then on the degraded regime grew back less than the good one would.
+    assert raw["blocks"][0]["total_regrowth_lost"] > 0
+    assert min(raw["blocks"][0]["regrowth_lost"]) >= 0
     assert raw["blocks"][1]["what_ifs"][0]["less_by"] == 1
 
 

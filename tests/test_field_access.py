@@ -143,13 +143,13 @@ def test_flooding_socket_is_throttled_while_another_phone_of_its_group_is_served
         thread.start()
         wait_until(lambda: any(n == "problem" and d["code"] == "too_many" for n, d in flooder.received),
                    "the flooder to be throttled")
-        started = time.monotonic()
         ack = neighbour.harvest("calm-decision-1", 1, 1, 4)
-        waited = time.monotonic() - started
+        flood_still_running = thread.is_alive()
         stop.set()
         thread.join(timeout=10)
         assert ack["ok"] and not ack["repeated"]
-        assert waited < WAIT_SECONDS  # answered within the call's bound, not starved by the flood
+        # Answered while the flood still ran: the neighbour was not starved until it stopped.
+        assert flood_still_running
         kinds = [e.kind for e in server.live.store.events(server.live.session_id)]
         assert kinds.count("harvest_submitted") == 1
     finally:
