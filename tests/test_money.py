@@ -41,9 +41,9 @@ def spec(**numbers: str) -> PaymentSpec:
         # 3 x 0.1 = 0.3 points; 0 + 0.3 x 1 = 0.30, already a multiple of 0.01 -> 0.30.
         # (Summing binary floats gives 0.30000000000000004, rounded up to 0.31.)
         ({"points_per_unit": "0.1", "round_up_to": "0.01"}, 3, "0.3", "0.30"),
-        # 7 x 0.1 = 0.7 points; 0.7 x 3 = 2.1, a multiple of 0.1 -> 2.1.
-        # (In floats 0.7000000000000001 x 3 = 2.1000000000000005, rounded up to 2.2.)
-        ({"points_per_unit": "0.1", "exchange_rate": "3", "round_up_to": "0.1"}, 7, "0.7", "2.1"),
+        # 14 x 0.1 = 1.4 points; 1.4 x 3 = 4.2, a multiple of 0.1 -> 4.2.
+        # (Fourteen 0.1s summed as floats are 1.4000000000000001, which paid 4.3.)
+        ({"points_per_unit": "0.1", "exchange_rate": "3", "round_up_to": "0.1"}, 14, "1.4", "4.2"),
         # 7 x 0.05 = 0.35 points -> cash 0.35, rounded up to a multiple of 0.5 -> 0.5.
         ({"points_per_unit": "0.05", "round_up_to": "0.5"}, 7, "0.35", "0.5"),
         # 10 x 0.05 = 0.50 points -> cash 0.50, already a multiple of 0.5: not raised.
@@ -170,7 +170,7 @@ FRACTIONAL = {
 # Units each seat takes in each of three rounds (0-based group, seat).
 TAKES = {(0, 0): 1, (0, 1): 2, (1, 0): 7, (1, 1): 0}
 # Hand computation over three rounds, fee 2.50, 0.1 points a unit, 3 marks a point, up to 0.1:
-#   G01-1: 3 units = 0.3 points; 2.50 + 0.9 = 3.40   (float sums give 3.4000000000000004 -> 3.5)
+#   G01-1: 3 units = 0.3 points; 2.50 + 0.9 = 3.40   (three 0.1s summed as floats paid 3.5)
 #   G01-2: 6 units = 0.6 points; 2.50 + 1.8 = 4.30
 #   G02-1: 21 units = 2.1 points; 2.50 + 6.3 = 8.80
 #   G02-2: 0 units = 0 points; 2.50
