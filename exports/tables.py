@@ -3,9 +3,8 @@
 from __future__ import annotations
 
 from collections.abc import Iterable
-from decimal import Decimal
 
-from ebbtide.game_logic.payoffs import payment, points
+from ebbtide.game_logic.money import earnings
 from ebbtide.game_logic.rounds import RoundOutcome
 from ebbtide.game_logic.study import Study
 
@@ -36,7 +35,7 @@ def decision_rows(
             "stock_before": outcome.stock_before,
             "harvest_asked": asked,
             "harvest_taken": taken,
-            "points": points(taken, study.payment),
+            "points": earnings(taken, study.payment).points,
             "source": source,
         }
         for seat, (asked, taken, source) in enumerate(
@@ -74,29 +73,25 @@ def round_row(study: Study, session_id: str, outcome: RoundOutcome) -> dict:
 def seat_rows(
     study: Study, session_id: str, decisions: list[dict], groups: int | None = None
 ) -> list[dict]:
-    """Totals and cash per seat, from the decision rows (every seat listed, even idle ones).
+    """Totals and cash per seat from the units taken in the decision rows (every seat
+    listed, even idle ones); points and cash are ``earnings`` of the seat's whole units.
 
     ``groups`` defaults to the study's group count; the pilot plays more.
     """
     count = study.groups.count if groups is None else groups
-    totals: dict[tuple[int, int], float] = {
-        (g, s): 0.0 for g in range(count) for s in range(study.seats)
-    }
-    by_code = {seat_code(g, s): (g, s) for g, s in totals}
+    units: dict[tuple[int, int], int] = {(g, s): 0 for g in range(count) for s in range(study.seats)}
+    by_code = {seat_code(g, s): (g, s) for g, s in units}
     for row in decisions:
-        totals[by_code[row["seat_id"]]] += row["points"]
-    return [
-        {
+        units[by_code[row["seat_id"]]] += row["harvest_taken"]
+    rows = []
+    for (g, s), taken in units.items():
+        paid = earnings(taken, study.payment)
+        rows.append({
             "session_id": session_id,
             "group_id": group_code(g),
             "seat_id": seat_code(g, s),
-            "points_total": total,
-            "payment": _money(payment(total, study.payment)),
+            "points_total": paid.points,
+            "payment": paid.cash,
             "currency": study.payment.currency,
-        }
-        for (g, s), total in totals.items()
-    ]
-
-
-def _money(amount: Decimal) -> float | int:
-    return int(amount) if amount == amount.to_integral_value() else float(amount)
+        })
+    return rows

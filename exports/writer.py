@@ -5,8 +5,10 @@ from __future__ import annotations
 import csv
 import hashlib
 import json
+from decimal import Decimal
 from pathlib import Path
 
+from ebbtide.game_logic.money import decimal_text
 from ebbtide.game_logic.study import Study
 
 from .schema import CONTRACT, Column
@@ -27,6 +29,9 @@ def _cell(value):
     if isinstance(value, float):
         # Whole numbers without ".0" keep the CSV readable; others keep full precision.
         return str(int(value)) if value.is_integer() else repr(value)
+    if isinstance(value, Decimal):
+        # Money columns: the exact decimal (0.3), never a binary float's 0.30000000000000004.
+        return decimal_text(value)
     return value
 
 

@@ -8,7 +8,7 @@ from __future__ import annotations
 import math
 
 from .benchmarks import equilibria, maximum_sustainable_yield
-from .payoffs import payment
+from .money import earnings, money_text
 from .study import Study
 
 
@@ -107,9 +107,10 @@ def design_summary(study: Study) -> list[str]:
         f"one-round drain: a group harvest of {drain} empties the initial stock "
         f"({math.ceil(drain / study.seats)} per seat; the maximum is {res.max_harvest})"
     )
-    top = study.total_rounds * res.max_harvest * pay.points_per_unit
+    most_units = study.total_rounds * res.max_harvest
     lines.append(
-        f"payment: {payment(0, pay)} to {payment(top, pay)} {pay.currency} per person "
-        f"(show-up fee {pay.show_up_fee:g}, rounded up to {pay.round_up_to:g})"
+        f"payment: {money_text(earnings(0, pay).cash)} to {money_text(earnings(most_units, pay).cash)} "
+        f"{pay.currency} per person "
+        f"(show-up fee {money_text(pay.show_up_fee)}, rounded up to {money_text(pay.round_up_to)})"
     )
     return lines

@@ -29,7 +29,7 @@ from collections.abc import Iterable
 from dataclasses import dataclass, field
 from typing import Any
 
-from ebbtide.game_logic.payoffs import points
+from ebbtide.game_logic.money import earnings
 from ebbtide.game_logic.rounds import GroupState, RoundOutcome, next_block, resolve, start_block
 from ebbtide.game_logic.seeding import round_rng
 from ebbtide.game_logic.study import Study
@@ -72,7 +72,7 @@ class GroupProgress:
     outcomes: list[RoundOutcome] = field(default_factory=list)
     sources: list[tuple[str, ...]] = field(default_factory=list)
     pending: dict[int, Decision] = field(default_factory=dict)
-    points: list[float] = field(default_factory=list)
+    units: list[int] = field(default_factory=list)  # whole units each seat took so far: the money record
     waiting: bool = False  # block over, next block not yet opened by the facilitator
     paused: bool = False  # phones of this group wait; the console may still enter harvests
 
@@ -101,7 +101,7 @@ class SessionState:
     @classmethod
     def new(cls, study: Study, seed: int, session_id: str) -> SessionState:
         groups = [
-            GroupProgress(start_block(study, seed, g, 0), points=[0.0] * study.seats)
+            GroupProgress(start_block(study, seed, g, 0), units=[0] * study.seats)
             for g in range(study.groups.count)
         ]
         return cls(study=study, seed=seed, session_id=session_id, groups=groups)
@@ -312,7 +312,7 @@ class SessionState:
         progress.sources.append(tuple(d.source for d in decisions))
         progress.pending = {}
         for s in seats:
-            progress.points[s] += points(outcome.taken[s], self.study.payment)
+            progress.units[s] += outcome.taken[s]
         progress.waiting = new_state.block_over and not new_state.session_over
         if all(p.state.session_over for p in self.groups):
             self.status = "ended"
@@ -324,7 +324,8 @@ class SessionState:
         """Everything a phone receives: the treatment's view plus neutral UI state."""
         progress = self.groups[g]
         view = participant_view(
-            self.study, progress.state, seat, progress.last_outcome, progress.points[seat]
+            self.study, progress.state, seat, progress.last_outcome,
+            earnings(progress.units[seat], self.study.payment).points,
         )
         mine = progress.pending.get(seat)
         return {

@@ -25,6 +25,7 @@ END_RULES = ("fixed", "random")
 Treatment = Literal["none", "vague", "range", "exact", "risk", "signal"]
 PositiveFloat = Annotated[float, Field(gt=0)]
 Probability = Annotated[float, Field(ge=0, le=1)]
+PositiveDecimal = Annotated[Decimal, Field(gt=0)]
 
 
 class _Frozen(BaseModel):
@@ -219,32 +220,43 @@ class BlockSpec(_Frozen):
 
 
 class PaymentSpec(_Frozen):
-    """Points per unit taken and their conversion to real money."""
+    """Points per unit taken and their conversion to real money.
 
-    points_per_unit: Annotated[float, Field(gt=0)] = 1
+    Decimal-valued: ``parse_study`` reads this table from the file's own digits, so
+    0.1 is exactly one tenth (``game_logic.money`` computes every amount from these).
+    """
+
+    points_per_unit: Annotated[Decimal, Field(gt=0)] = Decimal(1)
     currency: Annotated[str, Field(min_length=1, max_length=20)] = "marks"
-    exchange_rate: Annotated[float, Field(ge=0)] = 1
-    show_up_fee: Annotated[float, Field(ge=0)] = 0
-    round_up_to: Annotated[float, Field(gt=0)] = 1
+    exchange_rate: Annotated[Decimal, Field(ge=0)] = Decimal(1)
+    show_up_fee: Annotated[Decimal, Field(ge=0)] = Decimal(0)
+    round_up_to: Annotated[Decimal, Field(gt=0)] = Decimal(1)
     # Notes and coins the researcher will carry, for the payment sheet's packing list;
-    # when absent, a 1-2-5 series from round_up_to is assumed (game_logic.payoffs).
-    denominations: Annotated[tuple[PositiveFloat, ...], Field(min_length=1, max_length=20)] | None = None
+    # when absent, a 1-2-5 series from round_up_to is assumed (game_logic.money).
+    denominations: Annotated[tuple[PositiveDecimal, ...], Field(min_length=1, max_length=20)] | None = None
 
     @model_validator(mode="after")
     def _denominations_pay_every_amount(self):
         if self.denominations is None:
             return self
-        values = [Decimal(str(v)) for v in self.denominations]
+        values = list(self.denominations)
+        shown = [_plain(v) for v in values]
         if len(set(values)) != len(values):
-            raise ValueError(f"payment.denominations {list(self.denominations)} lists a value twice")
+            raise ValueError(f"payment.denominations {shown} lists a value twice")
         smallest = min(values)
-        if Decimal(str(self.round_up_to)) % smallest != 0:
+        # Every cash amount is a multiple of round_up_to; if that is a multiple of the
+        # smallest note, the smallest note alone can pay it (the packing list is exact).
+        if self.round_up_to % smallest != 0:
             raise ValueError(
-                f"payment.denominations {list(self.denominations)} cannot pay every amount: "
-                f"payment.round_up_to ({self.round_up_to:g}) must be a whole multiple of the "
-                f"smallest denomination ({smallest})"
+                f"payment.denominations {shown} cannot pay every amount: "
+                f"payment.round_up_to ({_plain(self.round_up_to)}) must be a whole multiple of the "
+                f"smallest denomination ({_plain(smallest)})"
             )
         return self
+
+
+def _plain(value: Decimal) -> str:
+    return format(value, "f")
 
 
 class Study(_Frozen):
@@ -307,21 +319,27 @@ class Study(_Frozen):
 def _describe(error: dict) -> str:
     key = ".".join(str(part) for part in error["loc"]) or "(top level)"
     message = error["msg"].removeprefix("Value error, ")
+    held = error.get("input")
+    held = _plain(held) if isinstance(held, Decimal) else repr(held)
     if error["type"] == "extra_forbidden":
-        return f"{key}: unknown key (holds {error['input']!r}); check the spelling"
+        return f"{key}: unknown key (holds {held}); check the spelling"
     if error["type"] == "missing":
         return f"{key}: required key is missing"
     if error["type"] == "value_error":
         return message if not error["loc"] else f"{key}: {message}"
-    return f"{key}: holds {error['input']!r}; allowed: {message}"
+    return f"{key}: holds {held}; allowed: {message}"
 
 
 def parse_study(text: str) -> Study:
     """Validate study TOML text; raise ``StudyError`` listing every problem."""
     try:
         raw = tomllib.loads(text)
+        # Money is read from the file's own digits, not the nearest binary float.
+        exact = tomllib.loads(text, parse_float=Decimal)
     except tomllib.TOMLDecodeError as exc:
         raise StudyError([f"not valid TOML: {exc}"]) from exc
+    if "payment" in exact:
+        raw["payment"] = exact["payment"]
     try:
         study = Study.model_validate(raw)
     except ValidationError as exc:

@@ -8,9 +8,11 @@ regime label) are never put into its result, so they cannot leak by accident.
 
 from __future__ import annotations
 
+from decimal import Decimal
 from typing import Any
 
 from .early_warning import health_reading
+from .money import decimal_text, earnings
 from .rounds import GroupState, RoundOutcome
 from .study import Study
 
@@ -45,7 +47,8 @@ def last_round_info(study: Study, outcome: RoundOutcome, seat: int) -> dict[str,
         "round": outcome.round,
         "asked": outcome.asked[seat],
         "taken": outcome.taken[seat],
-        "points": outcome.taken[seat] * study.payment.points_per_unit,
+        # Exact decimal text ("0.3"): a JSON float would invite float sums on the phone.
+        "points": decimal_text(earnings(outcome.taken[seat], study.payment).points),
         "group_total": outcome.total_taken,
         "remaining": outcome.remaining,
         "regrowth": outcome.regrowth,
@@ -62,7 +65,7 @@ def participant_view(
     state: GroupState,
     seat: int,
     last_outcome: RoundOutcome | None,
-    points_total: float,
+    points_total: Decimal,
 ) -> dict[str, Any]:
     """Everything seat ``seat`` (0-based) of the group may see right now.
 
@@ -85,7 +88,7 @@ def participant_view(
         "capacity": study.resource.capacity,
         "max_harvest": study.resource.max_harvest,
         "unit": study.resource.unit,
-        "points_total": points_total,
+        "points_total": decimal_text(points_total),
         "block_over": state.block_over,
         "session_over": state.session_over,
         "danger": danger_info(study, state),

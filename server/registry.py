@@ -18,6 +18,7 @@ from werkzeug.security import check_password_hash, generate_password_hash
 
 from ebbtide.exports.tables import group_code, seat_code
 from ebbtide.game_logic.errors import Refused
+from ebbtide.game_logic.money import decimal_text, earnings
 from ebbtide.game_logic.rounds import RoundOutcome
 from ebbtide.game_logic.session_fold import Receipt, SessionState, replay
 from ebbtide.game_logic.study import Study, parse_study
@@ -177,7 +178,7 @@ def console_snapshot(
                     "harvest": progress.pending[s].harvest if s in progress.pending else None,
                     "source": progress.pending[s].source if s in progress.pending else None,
                     "entry": progress.pending[s].event_id if s in progress.pending else None,
-                    "points": progress.points[s],
+                    "points": decimal_text(earnings(progress.units[s], study.payment).points),
                 }
                 for s in range(study.seats)
             ],

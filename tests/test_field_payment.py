@@ -11,7 +11,7 @@ import pytest
 from conftest import DEMO, study_with
 
 from ebbtide.game_logic.errors import StudyError
-from ebbtide.game_logic.payoffs import default_denominations, denominations_needed, packing_denominations
+from ebbtide.game_logic.money import default_denominations, denominations_needed, packing_denominations
 from ebbtide.game_logic.study import load_study
 from ebbtide.server import create_app
 from ebbtide.server.store.export import export_session

@@ -1,8 +1,8 @@
 """The payment sheet: each seat's points and cash, per group and in total, and the notes to bring.
 
-Cash is ``game_logic.payoffs.payment`` of the seat's points in the replayed
-state (the same numbers as ``seats.csv``); the packing list is
-``denominations_needed`` over every amount.
+Points and cash are ``game_logic.money.earnings`` of the whole units each seat took
+in the replayed state (the same rule as ``seats.csv`` and the phones); the packing
+list is ``denominations_needed`` over every amount.
 """
 
 from __future__ import annotations
@@ -13,10 +13,19 @@ from dataclasses import dataclass
 from decimal import Decimal
 
 from ebbtide.exports.tables import group_code, seat_code
-from ebbtide.game_logic.payoffs import denominations_needed, packing_denominations, payment
+from ebbtide.game_logic.money import (
+    decimal_text,
+    denominations_needed,
+    earnings,
+    money_text,
+    packing_denominations,
+)
 from ebbtide.game_logic.session_fold import SessionState
 
 from ..store import SeatKey
+
+# Cash as the sheet prints it (the template receives it under this name).
+money = money_text
 
 
 @dataclass(frozen=True)
@@ -24,7 +33,7 @@ class SeatPay:
     group_id: str
     seat_id: str
     card_code: str
-    points: float
+    points: Decimal
     cash: Decimal
 
 
@@ -34,8 +43,8 @@ class GroupPay:
     seats: tuple[SeatPay, ...]
 
     @property
-    def points(self) -> float:
-        return sum(s.points for s in self.seats)
+    def points(self) -> Decimal:
+        return sum((s.points for s in self.seats), Decimal(0))
 
     @property
     def cash(self) -> Decimal:
@@ -54,8 +63,8 @@ class PaymentSheet:
         return sum((g.cash for g in self.groups), Decimal(0))
 
     @property
-    def points(self) -> float:
-        return sum(g.points for g in self.groups)
+    def points(self) -> Decimal:
+        return sum((g.points for g in self.groups), Decimal(0))
 
 
 def payment_sheet(state: SessionState, keys: list[SeatKey]) -> PaymentSheet:
@@ -64,20 +73,16 @@ def payment_sheet(state: SessionState, keys: list[SeatKey]) -> PaymentSheet:
     codes = {(k.group, k.seat): k.short_code for k in keys}
     groups = []
     for g, progress in enumerate(state.groups):
+        paid = [earnings(units, spec) for units in progress.units]
         seats = tuple(
-            SeatPay(group_code(g), seat_code(g, s), codes.get((g, s), ""), total, payment(total, spec))
-            for s, total in enumerate(progress.points)
+            SeatPay(group_code(g), seat_code(g, s), codes.get((g, s), ""), p.points, p.cash)
+            for s, p in enumerate(paid)
         )
         groups.append(GroupPay(group_code(g), seats))
     amounts = [seat.cash for group in groups for seat in group.seats]
     needed = denominations_needed(amounts, packing_denominations(spec))
     notes = tuple((value, count) for value, count in needed.items() if count)
     return PaymentSheet(spec.currency, state.status, tuple(groups), notes)
-
-
-def money(amount: Decimal) -> str:
-    """Two decimals only when the amount has cents."""
-    return f"{amount:.2f}" if amount != amount.to_integral_value() else f"{amount:.0f}"
 
 
 def sheet_csv(sheet: PaymentSheet) -> str:
@@ -87,9 +92,10 @@ def sheet_csv(sheet: PaymentSheet) -> str:
     writer.writerow(["group_id", "seat_id", "card_code", "points_total", "payment", "currency"])
     for group in sheet.groups:
         for seat in group.seats:
-            writer.writerow([group.group_id, seat.seat_id, seat.card_code, f"{seat.points:g}",
+            writer.writerow([group.group_id, seat.seat_id, seat.card_code, decimal_text(seat.points),
                              money(seat.cash), sheet.currency])
     for group in sheet.groups:
-        writer.writerow([group.group_id, "total", "", f"{group.points:g}", money(group.cash), sheet.currency])
-    writer.writerow(["all", "total", "", f"{sheet.points:g}", money(sheet.cash), sheet.currency])
+        writer.writerow([group.group_id, "total", "", decimal_text(group.points), money(group.cash),
+                         sheet.currency])
+    writer.writerow(["all", "total", "", decimal_text(sheet.points), money(sheet.cash), sheet.currency])
     return out.getvalue()

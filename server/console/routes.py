@@ -12,6 +12,8 @@ import segno
 from flask import Blueprint, current_app, redirect, render_template, request, send_file, session, url_for
 from flask_babel import gettext as _
 
+from ebbtide.game_logic.money import decimal_text
+
 from ..registry import SHORT_CODE_ALPHABET
 from ..store.export import export_session
 from ..web import console_required, limiter, live_session
@@ -112,7 +114,7 @@ def payments():
     live = live_session()
     sheet = live.payment_sheet()
     return render_template("payments.html", title=live.study.session.title, session_id=live.session_id,
-                           sheet=sheet, money=money, spec=live.study.payment)
+                           sheet=sheet, money=money, exact=decimal_text, spec=live.study.payment)
 
 
 @bp.get("/console/payments.csv")
