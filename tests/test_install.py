@@ -13,6 +13,7 @@ from __future__ import annotations
 import os
 import queue
 import re
+import shutil
 import subprocess
 import sys
 import threading
@@ -102,7 +103,12 @@ def test_plain_install_of_the_project_folder_serves_the_demo(tmp_path):
 
 def test_wheel_built_with_build_serves_the_demo(tmp_path):
     dist = tmp_path / "dist"
-    built = subprocess.run([sys.executable, "-m", "build", "--wheel", "--outdir", str(dist), str(ROOT)],
+    # Built from a copy, so that no build/ folder left in the checkout can slip stale files in.
+    source = tmp_path / "source"
+    shutil.copytree(ROOT, source, ignore=shutil.ignore_patterns(
+        ".git", "build", "dist", "*.egg-info", "test-artifacts", "__pycache__", ".*_cache",
+        "session_exports"))
+    built = subprocess.run([sys.executable, "-m", "build", "--wheel", "--outdir", str(dist), str(source)],
                            capture_output=True, text=True, env=_clean_env(), timeout=600)
     assert built.returncode == 0, built.stderr[-2000:]
     wheels = list(dist.glob("ebbtide-*.whl"))
