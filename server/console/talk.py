@@ -18,7 +18,7 @@ from dataclasses import dataclass
 
 from flask import current_app
 
-from ebbtide.game_logic.errors import Refused
+from ebbtide.game_logic.errors import Refused, UnknownGroup
 
 from ..messages import GroupTarget
 
@@ -116,8 +116,7 @@ def register_console_events(edge, send_group, send_console) -> None:
 
     def _key(live, msg: GroupTarget) -> RoundKey:
         if msg.group is None:
-            raise Refused("bad_request",
-                          f"name one group for the talk pause; allowed: 1..{live.study.groups.count}")
+            raise UnknownGroup(f"name one group for the talk pause; allowed: 1..{live.study.groups.count}")
         live.state.group(msg.group - 1)
         key = open_round_key(live, msg.group - 1)
         if key is None:
