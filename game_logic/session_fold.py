@@ -25,17 +25,26 @@ Pacing rules (also in ``docs/server.md``):
 
 from __future__ import annotations
 
+import copy
 from collections.abc import Iterable
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, fields, replace
 from typing import Any
 
 from ebbtide.game_logic.money import earnings
-from ebbtide.game_logic.rounds import GroupState, RoundOutcome, next_block, resolve, start_block
+from ebbtide.game_logic.rounds import (
+    GroupState,
+    RoundOutcome,
+    check_block_open,
+    check_harvest,
+    next_block,
+    resolve,
+    start_block,
+)
 from ebbtide.game_logic.seeding import round_rng
 from ebbtide.game_logic.study import Study
 from ebbtide.game_logic.treatments import participant_view
 
-from .errors import Refused
+from .errors import Refused, RoundClosed, UnknownGroup, UnknownSeat
 
 SOURCES = ("phone", "console", "bot")
 # Events that only record what replay derives anyway (kept for people reading the log).
@@ -106,14 +115,52 @@ class SessionState:
         ]
         return cls(study=study, seed=seed, session_id=session_id, groups=groups)
 
+    def fork(self) -> SessionState:
+        """A copy to fold the next events into, leaving this version exactly as it is.
+
+        Copy-on-write: the live server folds accepted events into a fork and
+        publishes it whole, so a reader holding a version never sees it change.
+        Containers are copied one level deep; what they hold is frozen (outcomes,
+        decisions, receipts, group states) or replaced, never changed, by ``apply``.
+        """
+        forked = _with_fresh_containers(self)
+        forked.groups = [_with_fresh_containers(progress) for progress in self.groups]
+        return forked
+
     # -- checks (raise Refused, change nothing) -------------------------------
 
-    def _group(self, group: int) -> GroupProgress:
-        if not 0 <= group < len(self.groups):
-            raise Refused(
-                "unknown_group", f"group {group + 1} does not exist; allowed: 1..{len(self.groups)}"
-            )
+    def group(self, group: int) -> GroupProgress:
+        """The one group range check (``group`` 0-based): the group's progress, else ``UnknownGroup``."""
+        if isinstance(group, bool) or not isinstance(group, int) or not 0 <= group < len(self.groups):
+            shown = group + 1 if isinstance(group, int) else repr(group)
+            raise UnknownGroup(f"group {shown} does not exist; allowed: 1..{len(self.groups)}")
         return self.groups[group]
+
+    def open_round(self, group: int) -> GroupProgress:
+        """The one "is this group's round open" rule: its progress, else ``RoundClosed``.
+
+        Open means: the session has started and not ended, and the group's block is
+        still running (a paused session or group keeps its round open; whether a
+        phone may decide in it is the harvest check's business).
+        """
+        progress = self.group(group)
+        self._check_not_ended()
+        if self.status == "setup":
+            raise RoundClosed("not_started", "the session has not started yet; wait for the facilitator")
+        check_block_open(progress.state)
+        return progress
+
+    def _check_not_ended(self) -> None:
+        if self.status == "ended":
+            raise RoundClosed("session_over", "the session has ended; it is kept to read, pay and export, "
+                              "and nothing more can be played in it")
+
+    def round_is_open(self, group: int) -> bool:
+        try:
+            self.open_round(group)
+        except RoundClosed:
+            return False
+        return True
 
     def check(self, kind: str, body: dict[str, Any]) -> None:
         """Raise ``Refused`` if the event cannot happen now."""
@@ -127,20 +174,18 @@ class SessionState:
             if self.status != "paused":
                 raise Refused("not_paused", f"only a paused session can be resumed; it is {self.status}")
         elif kind == "session_ended":
-            if self.status == "ended":
-                raise Refused("session_over", "the session has already ended")
+            self._check_not_ended()
         elif kind == "seat_claimed":
-            self._group(body["group"])
+            self.group(body["group"])
         elif kind == "seat_released":
             self._check_seat(body["seat"])
-            self._group(body["group"])
+            self.group(body["group"])
             if not self.devices.get((body["group"], body["seat"])):
                 raise Refused("not_claimed", f"seat {body['seat'] + 1} of group {body['group'] + 1} "
                               "is not held by any device; nothing to release")
         elif kind in GROUP_KINDS:
-            progress = self._group(body["group"])
-            if self.status == "ended":
-                raise Refused("session_over", "the session has ended")
+            progress = self.group(body["group"])
+            self._check_not_ended()
             wanted = kind == "group_paused"
             if progress.paused == wanted:
                 word = "paused" if wanted else "playing"
@@ -152,9 +197,8 @@ class SessionState:
         elif kind == "round_closed":
             self._check_open_round(body, decided_ok=True)
         elif kind == "block_opened":
-            progress = self._group(body["group"])
-            if self.status == "ended":
-                raise Refused("session_over", "the session has ended")
+            progress = self.group(body["group"])
+            self._check_not_ended()
             if not progress.waiting:
                 raise Refused(
                     "block_running",
@@ -177,24 +221,18 @@ class SessionState:
             raise Refused("already_revealed", "the debrief has already been revealed to participants")
 
     def _check_open_round(self, body: dict[str, Any], decided_ok: bool) -> GroupProgress:
-        progress = self._group(body["group"])
+        progress = self.open_round(body["group"])
         state = progress.state
-        if self.status == "ended" or state.session_over:
-            raise Refused("session_over", "the session has ended; no more decisions are taken")
-        if self.status == "setup":
-            raise Refused("not_started", "the session has not started yet; wait for the facilitator")
-        if progress.waiting or state.block_over:
-            raise Refused("block_over", f"block {state.block + 1} is over; wait for the next block")
         current = (state.block + 1, state.round + 1)
         asked_for = (body["block"], body["round"])
         if asked_for < current:
-            raise Refused(
+            raise RoundClosed(
                 "round_resolved",
                 f"block {asked_for[0]}, round {asked_for[1]} is already resolved and cannot change; "
                 f"the open round is block {current[0]}, round {current[1]}",
             )
         if asked_for != current:
-            raise Refused(
+            raise RoundClosed(
                 "wrong_round",
                 f"block {asked_for[0]}, round {asked_for[1]} is not open yet; "
                 f"the open round is block {current[0]}, round {current[1]}",
@@ -202,17 +240,9 @@ class SessionState:
         return progress
 
     def _check_seat(self, seat: int) -> None:
-        if not 0 <= seat < self.study.seats:
-            raise Refused("unknown_seat", f"seat {seat + 1} does not exist; allowed: 1..{self.study.seats}")
-
-    def _check_value(self, seat: int, harvest: Any) -> None:
-        cap = self.study.resource.max_harvest
-        if isinstance(harvest, bool) or not isinstance(harvest, int) or not 0 <= harvest <= cap:
-            raise Refused(
-                "invalid_harvest",
-                f"seat {seat + 1}: harvest {harvest!r} is not allowed; "
-                f"allowed: a whole number from 0 to {cap}",
-            )
+        if isinstance(seat, bool) or not isinstance(seat, int) or not 0 <= seat < self.study.seats:
+            shown = seat + 1 if isinstance(seat, int) else repr(seat)
+            raise UnknownSeat(f"seat {shown} does not exist; allowed: 1..{self.study.seats}")
 
     def _check_harvest(self, body: dict[str, Any]) -> None:
         progress = self._check_open_round(body, decided_ok=False)
@@ -224,7 +254,7 @@ class SessionState:
             raise Refused("group_paused", "your group is paused; wait until the facilitator resumes it")
         seat = body["seat"]
         self._check_seat(seat)
-        self._check_value(seat, body["harvest"])
+        check_harvest(self.study, seat, body["harvest"])
         if seat in progress.pending:
             raise Refused(
                 "already_decided",
@@ -236,7 +266,7 @@ class SessionState:
         progress = self._check_open_round(body, decided_ok=True)
         seat = body["seat"]
         self._check_seat(seat)
-        self._check_value(seat, body["harvest"])
+        check_harvest(self.study, seat, body["harvest"])
         current = progress.pending.get(seat)
         if current is None:
             raise Refused(
@@ -278,9 +308,9 @@ class SessionState:
         elif kind == "session_ended":
             self.status = "ended"
         elif kind == "seat_claimed":
-            devices = self.devices.setdefault((body["group"], body["seat"]), [])
-            if body["device"] not in devices:
-                devices.append(body["device"])
+            devices = self.devices.get((body["group"], body["seat"]), [])
+            if body["device"] not in devices:  # a new list: a published version's list never changes
+                self.devices[(body["group"], body["seat"])] = [*devices, body["device"]]
         elif kind == "harvest_submitted":
             g, seat = body["group"], body["seat"]
             progress = self.groups[g]
@@ -345,6 +375,12 @@ class SessionState:
             for progress in self.groups
             for outcome, sources in zip(progress.outcomes, progress.sources, strict=True)
         ]
+
+
+def _with_fresh_containers(obj: Any) -> Any:
+    fresh = {f.name: copy.copy(value) for f in fields(obj)
+             if isinstance(value := getattr(obj, f.name), (list, dict, set))}
+    return replace(obj, **fresh)
 
 
 def replay(study: Study, seed: int, session_id: str, events: Iterable[Any]) -> SessionState:

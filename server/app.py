@@ -24,7 +24,9 @@ def create_app(config: dict[str, Any] | None = None) -> Flask:
     """Build the app for one database; opens (or creates, or resumes) the session to serve.
 
     Config keys: ``EBBTIDE_DB`` (path, required), ``EBBTIDE_STUDY`` (a ``Study`` to
-    serve: resumes its latest unfinished session, else creates one),
+    serve: resumes its latest session, or reopens it read-only if it has ended, else
+    creates one; a study file edited since is refused), ``EBBTIDE_NEW_SESSION`` (True:
+    always create a new session), ``EBBTIDE_OPENED`` (set: new, resumed or reopened),
     ``EBBTIDE_SEED``, ``EBBTIDE_PIN``, ``EBBTIDE_PUBLIC_URL`` (the address printed on
     seat cards; defaults to the address the console was opened at),
     ``EBBTIDE_FLOOD_EVENTS`` (messages a phone may send per 10 s, default 20; the
@@ -60,13 +62,15 @@ def create_app(config: dict[str, Any] | None = None) -> Flask:
     app.extensions["ebbtide"] = registry
     study = app.config.get("EBBTIDE_STUDY")
     if study is not None:
-        live, pin = registry.start_or_resume(
-            study, app.config.get("EBBTIDE_SEED"), app.config.get("EBBTIDE_PIN")
+        opening = registry.start_or_resume(
+            study, app.config.get("EBBTIDE_SEED"), app.config.get("EBBTIDE_PIN"),
+            new_session=bool(app.config.get("EBBTIDE_NEW_SESSION")),
         )
-        app.config["EBBTIDE_PIN"] = pin
-        app.config["EBBTIDE_SESSION_ID"] = live.session_id
+        app.config["EBBTIDE_PIN"] = opening.pin
+        app.config["EBBTIDE_SESSION_ID"] = opening.live.session_id
+        app.config["EBBTIDE_OPENED"] = opening.how
         # The session's own key: console cookies stay valid when the server restarts.
-        app.secret_key = live.record.secret_key
+        app.secret_key = opening.live.record.secret_key
 
     def select_locale() -> str | None:
         if registry.current_id is None:

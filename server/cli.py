@@ -8,7 +8,7 @@ from pathlib import Path
 
 import click
 
-from ebbtide.game_logic.errors import StudyError
+from ebbtide.game_logic.errors import EbbtideError, StudyError
 from ebbtide.game_logic.study import Study, load_study
 from ebbtide.server.resources import example_study
 
@@ -25,7 +25,18 @@ def _load(path: str) -> Study:
         sys.exit(2)
 
 
-@click.group(context_settings={"help_option_names": ["-h", "--help"]})
+class _Commands(click.Group):
+    """Every named error that reaches the command line becomes one line and exit code 2."""
+
+    def invoke(self, ctx: click.Context):
+        try:
+            return super().invoke(ctx)
+        except EbbtideError as exc:
+            click.echo(f"{ctx.invoked_subcommand or 'ebbtide'}: {exc.message} [{exc.code}]", err=True)
+            sys.exit(2)
+
+
+@click.group(cls=_Commands, context_settings={"help_option_names": ["-h", "--help"]})
 @click.version_option(package_name="ebbtide")
 def main() -> None:
     """Ebbtide: threshold-risk harvest games for field sessions, teaching and analysis."""
@@ -86,7 +97,6 @@ def pilot(study_file: str, groups: int, seed: int, strategy: str, out_dir: str) 
 def pool(folders: tuple[str, ...], out_dir: str, stata: bool) -> None:
     """Merge the export folders FOLDERS of many sessions into one pooled folder."""
     from ebbtide.analysis.pool import pool_exports
-    from ebbtide.game_logic.errors import EbbtideError
 
     try:
         result = pool_exports(folders, out_dir, stata=stata)
@@ -108,7 +118,6 @@ def pool(folders: tuple[str, ...], out_dir: str, stata: bool) -> None:
 def report(folder: str, out_file: str, seed: int) -> None:
     """Write a self-contained HTML analysis report of the export FOLDER."""
     from ebbtide.analysis.report import write_report
-    from ebbtide.game_logic.errors import EbbtideError
 
     try:
         written = write_report(folder, out_file, seed=seed)
@@ -118,21 +127,32 @@ def report(folder: str, out_file: str, seed: int) -> None:
     click.echo(f"wrote {written.html} and {len(written.tables)} table(s) as CSV next to it")
 
 
-def _announce(app, host: str, db_path: Path, created: bool) -> Callable[[int], None]:
+# What ``serve`` says it did on start-up, by ``Opening.how`` (server/registry.py).
+OPENED_WORDS = {
+    "new": "new session",
+    "resumed": "resumed session",
+    "reopened": "reopened session, which has ended (read-only: nothing more can be played; "
+                "payment sheet, debrief, reveal and export are available)",
+}
+
+
+def _announce(app, host: str, db_path: Path) -> Callable[[int], None]:
     from ebbtide.server.netaddr import reachable_host
 
     def announce(port: int) -> None:
         base = f"http://{reachable_host(host)}:{port}"
         app.config["EBBTIDE_PUBLIC_URL"] = base
         pin = app.config.get("EBBTIDE_PIN")
-        state = "new session" if created else "resumed session"
-        click.echo(f"Ebbtide: {state} {app.config['EBBTIDE_SESSION_ID']}")
+        how = app.config["EBBTIDE_OPENED"]
+        click.echo(f"Ebbtide: {OPENED_WORDS[how]} {app.config['EBBTIDE_SESSION_ID']}")
         click.echo(f"  console:        {base}/console")
         kept = "unchanged (set when the session was created)"
         click.echo(f"  console PIN:    {pin or kept}")
         click.echo(f"  seat cards:     {base}/console/cards")
         click.echo(f"  phones join at: {base}/play")
         click.echo(f"  database:       {db_path}")
+        if how == "reopened":
+            click.echo("To play this study again, start with --new-session (a new PIN and new seat cards).")
         click.echo("Stop with Ctrl+C; start again on the same database to resume where it was.", nl=True)
         sys.stdout.flush()
 
@@ -140,21 +160,21 @@ def _announce(app, host: str, db_path: Path, created: bool) -> Callable[[int], N
 
 
 def _run_session(
-    study: Study, db_path: Path, host: str, port: int, seed: int | None, pin: str | None
+    study: Study, db_path: Path, host: str, port: int, seed: int | None, pin: str | None,
+    new_session: bool = False,
 ) -> None:
-    from ebbtide.game_logic.errors import Refused
     from ebbtide.server import create_app
     from ebbtide.server.serving import serve as serve_forever
 
-    config = {"EBBTIDE_DB": str(db_path), "EBBTIDE_STUDY": study, "EBBTIDE_SEED": seed, "EBBTIDE_PIN": pin}
+    config = {"EBBTIDE_DB": str(db_path), "EBBTIDE_STUDY": study, "EBBTIDE_SEED": seed,
+              "EBBTIDE_PIN": pin, "EBBTIDE_NEW_SESSION": new_session}
     try:
         app = create_app(config)
-    except Refused as exc:
+    except EbbtideError as exc:
         click.echo(f"cannot start: {exc.message}", err=True)
         sys.exit(2)
-    created = app.config.get("EBBTIDE_PIN") is not None
     try:
-        serve_forever(app, host, port, _announce(app, host, db_path, created))
+        serve_forever(app, host, port, _announce(app, host, db_path))
     except OSError as exc:
         click.echo(f"cannot listen on {host}:{port}: {exc.strerror}; choose another --port", err=True)
         sys.exit(2)
@@ -176,16 +196,24 @@ _PORT = click.option("--port", type=click.IntRange(0, 65535), default=8750, show
               help="Seed of every random draw [default: a fresh random seed, stored].")
 @click.option("--pin", type=click.STRING, default=None,
               help="Console PIN, 4 to 12 digits [default: six random digits, printed].")
+@click.option("--new-session", is_flag=True,
+              help="Start a new session (new PIN, new seat cards) even if the database holds one "
+                   "of this study; without it the latest one is resumed, or reopened if it has ended.")
 def serve(
-    study_file: str, db_path: str | None, host: str, port: int, seed: int | None, pin: str | None
+    study_file: str, db_path: str | None, host: str, port: int, seed: int | None, pin: str | None,
+    new_session: bool,
 ) -> None:
-    """Run a live session of STUDY_FILE; on the same database it resumes where it was."""
+    """Run a live session of STUDY_FILE; on the same database it resumes where it was.
+
+    A session that has ended is reopened read-only (payment sheet, debrief, reveal,
+    export); a study file edited since the session was created is refused.
+    """
     if pin is not None and not (pin.isdigit() and 4 <= len(pin) <= 12):
         click.echo(f"--pin holds {pin!r}; allowed: 4 to 12 digits", err=True)
         sys.exit(2)
     study = _load(study_file)
     path = Path(db_path) if db_path else Path.cwd() / f"{study.session.id}.db"
-    _run_session(study, path.resolve(), host, port, seed, pin)
+    _run_session(study, path.resolve(), host, port, seed, pin, new_session)
 
 
 @main.command()

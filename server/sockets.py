@@ -13,6 +13,7 @@ event, each with a code and a message that says what is allowed.
 from __future__ import annotations
 
 import functools
+import logging
 import time
 from collections import deque
 from collections.abc import Callable
@@ -22,7 +23,7 @@ from flask import current_app, request, session
 from flask_socketio import ConnectionRefusedError, emit, join_room
 from pydantic import BaseModel, ValidationError
 
-from ebbtide.game_logic.errors import Refused
+from ebbtide.game_logic.errors import EbbtideError, Refused, ServerError
 
 from .app import socketio
 from .messages import ConsoleAuth, PhoneAuth, from_validation_error
@@ -32,6 +33,8 @@ from .registry import LiveSession, Registry
 FLOOD_EVENTS = 20  # per phone connection, within FLOOD_SECONDS; a person taps far less
 CONSOLE_FLOOD_EVENTS = 60  # a facilitator typing slips seat by seat clicks more often
 FLOOD_SECONDS = 10.0
+
+log = logging.getLogger(__name__)
 
 
 @dataclass
@@ -91,10 +94,11 @@ def flood_limit(role: str) -> int:
 def _flooding(conn: Connection) -> bool:
     now = time.monotonic()
     recent = conn.recent
-    while recent and now - recent[0] > FLOOD_SECONDS:
-        recent.popleft()
-    recent.append(now)
-    return len(recent) > flood_limit(conn.role)
+    with registry().flood_lock:  # one socket's events may run on several threads at once
+        while recent and now - recent[0] > FLOOD_SECONDS:
+            recent.popleft()
+        recent.append(now)
+        return len(recent) > flood_limit(conn.role)
 
 
 def _admit(event: str, role: str | None) -> Connection:
@@ -109,7 +113,11 @@ def _admit(event: str, role: str | None) -> Connection:
 
 
 def edge(event: str, model: type[BaseModel], role: str) -> Callable:
-    """Register a handler that gets a checked message, or answers with a refusal."""
+    """Register a handler that gets a checked message, or answers with a refusal.
+
+    Every failure is answered (acknowledgement and ``problem`` event): a named
+    error with its code, anything unexpected with ``server_error``.
+    """
 
     def wrap(handler: Callable) -> Callable:
         @functools.wraps(handler)
@@ -123,8 +131,13 @@ def edge(event: str, model: type[BaseModel], role: str) -> Callable:
                 return handler(conn, registry().current, message)
             except ValidationError as exc:
                 refusal = from_validation_error(exc)
-            except Refused as exc:
+            except EbbtideError as exc:  # every named error of the core: its code and one line
                 refusal = exc
+            except Exception:
+                # Unexpected (a locked or full disk, a bug): logged here with its traceback,
+                # answered so the client stops waiting; nothing was stored, so it may resend.
+                log.exception("socket event %r failed unexpectedly", event)
+                refusal = ServerError()
             body = refusal.as_event(event)
             emit("problem", body)
             return body

@@ -26,8 +26,7 @@ def live_session() -> LiveSession:
 
 
 def limiter(name: str) -> FailureLimiter:
-    limiters = current_app.extensions.setdefault("ebbtide_limiters", {})
-    return limiters.setdefault(name, FailureLimiter())
+    return registry().limiter(name)
 
 
 @bp.after_app_request

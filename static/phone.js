@@ -104,11 +104,40 @@
   }
   socket.on("seat_released", released);
 
+  // A choice the server could not store (no answer, or server_error) stays pending here and is
+  // sent again with the same id, waiting longer each time while connected; a resend is never
+  // counted twice. On reconnect it is sent at once.
+  var RETRY_FIRST_MS = 1000, RETRY_MAX_MS = 30000;
+  var retryDelay = RETRY_FIRST_MS;
+  var retryTimer = null;
+  var retrying = false;
+
+  function stopRetry() {
+    if (retryTimer) window.clearTimeout(retryTimer);
+    retryTimer = null;
+    retryDelay = RETRY_FIRST_MS;
+  }
+
+  function retryLater(decision) {
+    retrying = true;
+    render();
+    if (retryTimer) window.clearTimeout(retryTimer);
+    retryTimer = window.setTimeout(function () {
+      retryTimer = null;
+      var still = pending();
+      if (socket.connected && still && still.decision_id === decision.decision_id) send(still);
+    }, retryDelay);
+    retryDelay = Math.min(retryDelay * 2, RETRY_MAX_MS);
+  }
+
   function send(decision) {
     socket.timeout(8000).emit("harvest", decision, function (err, ack) {
-      if (err) return;  // no answer: it is resent on the next connect, with the same id
       var still = pending();
-      if (still && still.decision_id === decision.decision_id) setPending(null);
+      if (!still || still.decision_id !== decision.decision_id) return;
+      if (err || !ack || ack.code === "server_error") return retryLater(decision);
+      stopRetry();
+      retrying = false;
+      setPending(null);
       if (!ack.ok) showProblem(ack);
       render();
     });
@@ -116,10 +145,14 @@
 
   socket.on("connect", function () {
     $("connection").textContent = "";
+    stopRetry();
     var decision = pending();
     if (decision) send(decision);
   });
-  socket.on("disconnect", function () { $("connection").textContent = S.offline; });
+  socket.on("disconnect", function () {
+    stopRetry();  // the next connect sends it again
+    $("connection").textContent = S.offline;
+  });
   socket.on("connect_error", function (err) {
     if (err && err.data && err.data.code === "seat_released") return released(err);
     $("connection").textContent = err && /seat card/.test(err.message) ? S.unknown_seat : S.offline;
@@ -132,7 +165,9 @@
     talkEndsAt = s.talk_remaining > 0 ? Date.now() + s.talk_remaining * 1000 : null;
     render();
   });
-  socket.on("problem", showProblem);
+  socket.on("problem", function (p) {
+    if (p.code !== "server_error") showProblem(p);  // that one is retried; the status line says so
+  });
 
   function showProblem(p) {
     $("problem").textContent = fmt("problem", { message: p.message });
@@ -152,6 +187,7 @@
     var v = snap.view;
     var decision = { decision_id: randomId(), block: v.block, round: v.round, harvest: choice };
     setPending(decision);
+    retrying = false;
     $("problem").hidden = true;
     render();
     send(decision);
@@ -345,7 +381,7 @@
     else if (snap.status === "paused") status = S.paused;
     else if (snap.waiting_for_block || v.block_over) status = S.waiting_block;
     else if (snap.decided) status = fmt("recorded", { n: snap.my_harvest });
-    else if (mine) status = S.sending;
+    else if (mine) status = retrying ? S.retrying : S.sending;
     else canChoose = true;
     $("status").textContent = status;
     $("chooser").hidden = !canChoose;

@@ -31,6 +31,7 @@ def phone_strings() -> dict[str, str]:
         "more": _("Take one more"),
         "confirm": _("Confirm: take %(n)s"),
         "sending": _("Sending your choice…"),
+        "retrying": _("Your choice is not saved yet. It is kept on this phone and sent again in a moment."),
         "recorded": _("Your choice is recorded: %(n)s. Waiting for the others."),
         "last_round": _("Last round"),
         "you_asked": _("You asked for"),

@@ -42,17 +42,15 @@ def gauge_labels() -> dict[str, str]:
     }
 
 
-def _languages() -> dict[tuple[str, int, int], str]:
-    return current_app.extensions.setdefault("ebbtide_seat_languages", {})
-
-
 def remember_language(live, group: int, seat: int) -> None:
-    """Called on a phone's connect: its page's language becomes the seat's."""
-    _languages()[(live.session_id, group, seat)] = str(get_locale() or live.study.session.language)
+    """Called on a phone's connect: its page's language becomes the seat's (kept in the registry)."""
+    language = str(get_locale() or live.study.session.language)
+    current_app.extensions["ebbtide"].set_seat_language(live.session_id, group, seat, language)
 
 
 def seat_language(live, group: int, seat: int) -> str:
-    return _languages().get((live.session_id, group, seat), live.study.session.language)
+    chosen = current_app.extensions["ebbtide"].seat_language(live.session_id, group, seat)
+    return chosen or live.study.session.language
 
 
 def add_to_seat_snapshot(live, group: int, seat: int, snapshot: dict[str, Any]) -> dict[str, Any]:
