@@ -21,7 +21,7 @@ def digest(state: SessionState):
     """Everything a reader can see in a version, as plain values."""
     return (
         state.status, state.seq, state.debrief_revealed,
-        tuple((tuple(sorted(p.pending.items())), tuple(p.points), tuple(p.outcomes), p.state,
+        tuple((tuple(sorted(p.pending.items())), tuple(p.units), tuple(p.outcomes), p.state,
                p.waiting, p.paused) for p in state.groups),
         tuple(sorted((k, tuple(v)) for k, v in state.devices.items())),
         tuple(sorted(state.released)), tuple(sorted(state.receipts.items())),
