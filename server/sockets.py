@@ -25,6 +25,7 @@ from pydantic import BaseModel, ValidationError
 from ebbtide.game_logic.errors import Refused
 
 from .app import socketio
+from .frame_guard import RESERVED_EVENTS
 from .messages import ConsoleAuth, PhoneAuth, from_validation_error
 from .phone.view import remember_language
 from .registry import LiveSession, Registry
@@ -97,9 +98,9 @@ def _flooding(conn: Connection) -> bool:
     return len(recent) > flood_limit(conn.role)
 
 
-def _admit(event: str, role: str | None) -> Connection:
-    """The connection behind this request, if it may send ``event`` now; else ``Refused``."""
-    conn = registry().connection(request.sid)
+def _admit(event: str, role: str | None, sid: str | None = None) -> Connection:
+    """The connection behind this request (or ``sid``), if it may send ``event`` now; else ``Refused``."""
+    conn = registry().connection(sid or request.sid)
     if conn is None or (role is not None and conn.role != role):
         raise Refused("not_allowed", f"{event!r} is not allowed on this connection")
     if _flooding(conn):
@@ -194,20 +195,19 @@ def on_disconnect(*_reason):
         send_console(reg.current)  # the console shows which phones are offline
 
 
-@socketio.on("*")
-def on_unknown(event, *_args):
-    """Any event nobody handles: refused, saying which events exist."""
+def refuse_unknown_event(sid: str, label: str) -> dict:
+    """An event that is not ours (unknown, a reserved name, not even a name): refused, flood-counted.
+
+    Called by ``frame_guard`` before python-socketio dispatches anything, so names like
+    ``connect`` or ``disconnect`` never reach the connection handlers.
+    """
     try:
-        _admit(str(event)[:40], None)
-        known = sorted(name for name in socketio.server.handlers.get("/", {}) if name not in RESERVED)
-        raise Refused("unknown_event", f"unknown event {str(event)[:40]!r}; allowed: {', '.join(known)}")
+        _admit(label, None, sid)
+        handlers = socketio.server.handlers.get("/", {})
+        known = sorted(name for name in handlers if name not in RESERVED_EVENTS)
+        raise Refused("unknown_event", f"unknown event {label!r}; allowed: {', '.join(known)}")
     except Refused as refusal:
-        body = refusal.as_event(str(event)[:40])
-        emit("problem", body)
-        return body
-
-
-RESERVED = frozenset({"connect", "disconnect", "*"})
+        return refusal.as_event(label)
 
 
 def _session_just_ended(live: LiveSession, change) -> bool:

@@ -31,20 +31,8 @@ def limiter(name: str) -> FailureLimiter:
 
 
 @bp.after_app_request
-def safety_headers(response):
-    """Nothing loads from elsewhere; a join link never leaks through a referrer."""
-    response.headers.setdefault(
-        "Content-Security-Policy",
-        "default-src 'self'; img-src 'self' data:; style-src 'self'; script-src 'self'; "
-        "connect-src 'self'; frame-ancestors 'none'; form-action 'self'",
-    )
-    response.headers.setdefault("X-Content-Type-Options", "nosniff")
-    response.headers.setdefault("Referrer-Policy", "no-referrer")
-    response.headers.setdefault("X-Frame-Options", "DENY")
-    # Seat links and console pages carry secrets or hidden values: never kept in a cache.
-    carries_secret = "secret" in (request.view_args or {}) or request.path.startswith("/console")
-    if carries_secret:
-        response.headers["Cache-Control"] = "no-store"
+def remember_language(response):
+    """A ``?lang=`` choice sticks for later pages (security headers: ``serving.GuardedWSGI``)."""
     lang = request.args.get("lang")
     if lang and registry().current_id and lang in registry().current.study.session.languages:
         response.set_cookie("lang", lang, samesite="Strict", max_age=30 * 86400)

@@ -81,12 +81,10 @@ def seat_cards():
             "qr_svg": segno.make(link, error="m").svg_inline(border=2, omitsize=True),
         })
     sheets = [cards[i:i + CARDS_PER_SHEET] for i in range(0, len(cards), CARDS_PER_SHEET)]
-    response = current_app.make_response(render_template(
+    return render_template(
         "cards.html", title=live.study.session.title, sheets=sheets, join_url=f"{base}/play",
         alphabet=SHORT_CODE_ALPHABET,
-    ))
-    response.headers["Cache-Control"] = "no-store"
-    return response
+    )
 
 
 @bp.get("/console/export.zip")
