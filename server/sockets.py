@@ -25,6 +25,7 @@ from pydantic import BaseModel, ValidationError
 from ebbtide.game_logic.errors import Refused
 
 from .app import socketio
+from .console.access import COOKIE_KEY, logins, request_login
 from .frame_guard import RESERVED_EVENTS
 from .messages import ConsoleAuth, PhoneAuth, from_validation_error
 from .phone.view import remember_language
@@ -45,6 +46,7 @@ class Connection:
     seat: int = -1
     agent: str = "phone"
     recent: deque | None = None
+    login: str = ""  # a console's server-side login id (console/access.py)
 
 
 def registry() -> Registry:
@@ -103,6 +105,9 @@ def _admit(event: str, role: str | None, sid: str | None = None) -> Connection:
     conn = registry().connection(sid or request.sid)
     if conn is None or (role is not None and conn.role != role):
         raise Refused("not_allowed", f"{event!r} is not allowed on this connection")
+    if conn.role == "console" and not logins().check(conn.login, conn.session_id, time.monotonic()):
+        raise Refused("logged_out", "this console login has ended (logged out, or idle too long); "
+                      "log in again with the PIN")
     if _flooding(conn):
         limit = flood_limit(conn.role)
         raise Refused("too_many", f"more than {limit} messages in {FLOOD_SECONDS:g} s; slow down")
@@ -148,9 +153,12 @@ def on_connect(auth=None):
             ConsoleAuth.model_validate(auth)
         except ValidationError as exc:
             raise ConnectionRefusedError(from_validation_error(exc).message) from exc
-        if session.get("console") != live.session_id:
-            raise ConnectionRefusedError("log in to the console with its PIN first")
-        reg.remember(request.sid, Connection("console", live.session_id, recent=deque()))
+        login = request_login(live.session_id, time.monotonic())
+        if login is None:
+            raise ConnectionRefusedError("log in to the console with its PIN first", {"code": "login_needed"})
+        login_id = session[COOKIE_KEY]
+        logins().attach(login_id, request.sid)
+        reg.remember(request.sid, Connection("console", live.session_id, recent=deque(), login=login_id))
         join_room(console_room(live.session_id))
         emit("console_state", live.console_snapshot(reg.online()))
         return
@@ -191,6 +199,8 @@ def on_disconnect(*_reason):
     reg = registry()
     conn = reg.connection(request.sid)
     reg.forget(request.sid)
+    if conn is not None and conn.login:
+        logins().detach(conn.login, request.sid)
     if conn is not None and conn.role == "phone" and reg.current_id == conn.session_id:
         send_console(reg.current)  # the console shows which phones are offline
 

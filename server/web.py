@@ -1,12 +1,15 @@
-"""The shared HTTP edge: security headers on every answer, the health probe, access helpers."""
+"""The shared HTTP edge: health probe, origin checks, access helpers (headers: ``serving.GuardedWSGI``)."""
 
 from __future__ import annotations
 
 import re
+import time
 from functools import wraps
 
-from flask import Blueprint, abort, current_app, redirect, request, session, url_for
+from flask import Blueprint, abort, current_app, redirect, render_template, request, url_for
+from flask_babel import gettext as _
 
+from .console.access import SAFE_METHODS, cross_origin, form_token_ok, request_login
 from .ratelimit import FailureLimiter
 from .registry import LiveSession, Registry
 
@@ -46,12 +49,30 @@ def healthz():
 
 
 
+def _refuse_forged():
+    live = live_session()
+    message = _("This request did not come from this console's own page. Reload the console and try again.")
+    return render_template("teach_refused.html", title=live.study.session.title, message=message), 403
+
+
+@bp.before_app_request
+def refuse_other_origins():
+    """A form sent from another site (its Origin or Referer names it) changes nothing."""
+    if request.method not in SAFE_METHODS and cross_origin():
+        return _refuse_forged()
+    return None
+
+
 def console_required(view):
+    """A live server-side console login (``console/access.py``); forms must carry its token."""
+
     @wraps(view)
     def inner(*args, **kwargs):
-        if session.get("console") != live_session().session_id:
+        login = request_login(live_session().session_id, time.monotonic())
+        if login is None:
             return redirect(url_for("console.console_login"))
+        if request.method not in SAFE_METHODS and not form_token_ok(login):
+            return _refuse_forged()
         return view(*args, **kwargs)
 
     return inner
-

@@ -107,9 +107,14 @@ class Console:
 
 
 def console_login(url: str, pin: str) -> requests.Session:
+    """A logged-in console browser; ``http.form_token`` is the hidden field its forms send."""
     http = requests.Session()
     response = http.post(f"{url}/console/login", data={"pin": pin}, allow_redirects=False, timeout=5)
     assert response.status_code == 303, response.text
+    page = http.get(f"{url}/console", timeout=5).text
+    found = re.search(r'name="form_token" value="([^"]+)"', page)
+    assert found, "the console page carries no form token"
+    http.form_token = found.group(1)
     return http
 
 
