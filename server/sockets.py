@@ -30,6 +30,7 @@ from .frame_guard import RESERVED_EVENTS
 from .messages import ConsoleAuth, PhoneAuth, from_validation_error
 from .phone.view import remember_language
 from .registry import LiveSession, Registry
+from .web import code_guard
 
 FLOOD_EVENTS = 20  # per phone connection, within FLOOD_SECONDS; a person taps far less
 CONSOLE_FLOOD_EVENTS = 60  # a facilitator typing slips seat by seat clicks more often
@@ -80,9 +81,15 @@ def send_everyone(live: LiveSession) -> None:
     send_console(live)
 
 
-def send_console(live: LiveSession) -> None:
+def console_state(live: LiveSession) -> dict:
+    """The console's snapshot, with a warning when seat codes are being guessed (``ratelimit``)."""
     snapshot = live.console_snapshot(registry().online())
-    socketio.emit("console_state", snapshot, to=console_room(live.session_id))
+    snapshot["guessing"] = code_guard().report(time.monotonic())
+    return snapshot
+
+
+def send_console(live: LiveSession) -> None:
+    socketio.emit("console_state", console_state(live), to=console_room(live.session_id))
 
 
 def flood_limit(role: str) -> int:
@@ -160,7 +167,7 @@ def on_connect(auth=None):
         logins().attach(login_id, request.sid)
         reg.remember(request.sid, Connection("console", live.session_id, recent=deque(), login=login_id))
         join_room(console_room(live.session_id))
-        emit("console_state", live.console_snapshot(reg.online()))
+        emit("console_state", console_state(live))
         return
     try:
         phone = PhoneAuth.model_validate(auth if auth is not None else {})

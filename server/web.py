@@ -10,7 +10,7 @@ from flask import Blueprint, abort, current_app, redirect, render_template, requ
 from flask_babel import gettext as _
 
 from .console.access import SAFE_METHODS, cross_origin, form_token_ok, request_login
-from .ratelimit import FailureLimiter
+from .ratelimit import CodeGuard, FailureLimiter
 from .registry import LiveSession, Registry
 
 bp = Blueprint("web", __name__)
@@ -31,6 +31,11 @@ def live_session() -> LiveSession:
 def limiter(name: str) -> FailureLimiter:
     limiters = current_app.extensions.setdefault("ebbtide_limiters", {})
     return limiters.setdefault(name, FailureLimiter())
+
+
+def code_guard() -> CodeGuard:
+    """The typed seat code's limits (per address, per device, one budget for all)."""
+    return current_app.extensions.setdefault("ebbtide_code_guard", CodeGuard())
 
 
 @bp.after_app_request

@@ -62,6 +62,11 @@
 
   function render() {
     if (!state) return;
+    var guessing = state.guessing;
+    $("guessing-warning").hidden = !guessing;
+    if (guessing) {
+      $("guessing-warning").textContent = fmt("guessing", { n: guessing.wrong_codes, minutes: guessing.minutes });
+    }
     $("status-word").textContent = S["status_" + state.status];
     $("start").disabled = state.status !== "setup" || !$("cautions-read").checked;
     $("start").hidden = state.status !== "setup";
