@@ -13,6 +13,7 @@ event, each with a code and a message that says what is allowed.
 from __future__ import annotations
 
 import functools
+import hmac
 import time
 from collections import deque
 from collections.abc import Callable
@@ -25,7 +26,7 @@ from pydantic import BaseModel, ValidationError
 from ebbtide.game_logic.errors import Refused
 
 from .app import socketio
-from .console.access import COOKIE_KEY, logins, request_login
+from .console.access import COOKIE_KEY, logins, rehearsal_token, request_login
 from .frame_guard import RESERVED_EVENTS
 from .messages import ConsoleAuth, PhoneAuth, from_validation_error
 from .phone.view import remember_language
@@ -180,6 +181,11 @@ def on_connect(auth=None):
     if found is None:
         raise ConnectionRefusedError("this seat card does not belong to the session being played")
     live, key = found
+    if phone.agent == "bot" and not hmac.compare_digest(
+        phone.rehearsal or "", rehearsal_token(live.record.secret_key)
+    ):
+        raise ConnectionRefusedError("only the rehearsal command may play a seat as a bot; "
+                                     "a phone connects without 'agent'", {"code": "not_a_bot"})
     seat = (key.group, key.seat)
     if phone.device not in live.state.devices.get(seat, []):
         if seat in live.state.released and not phone.fresh:

@@ -84,11 +84,15 @@ class Phone:
         self.client.disconnect()
 
 
-def connect_phone(url: str, secret: str, device: str = "test-device-1", agent: str = "phone") -> Phone:
+def connect_phone(url: str, secret: str, device: str = "test-device-1", agent: str = "phone",
+                  rehearsal: str | None = None) -> Phone:
     client = socketio.Client(reconnection=False)
     phone = Phone(client)
     client.on("*", lambda event, data=None: phone.received.append((event, data)))
-    client.connect(url, auth={"secret": secret, "device": device, "agent": agent},
+    auth = {"secret": secret, "device": device, "agent": agent}
+    if rehearsal:
+        auth["rehearsal"] = rehearsal  # the bots' credential (ebbtide rehearse)
+    client.connect(url, auth=auth,
                    transports=["websocket"], wait_timeout=WAIT_SECONDS)
     return phone
 
