@@ -10,6 +10,7 @@ from flask_babel import Babel, get_locale
 from flask_socketio import SocketIO
 
 from .resources import data_folder
+from .serving import GuardedWSGI
 
 # Measured in bench/server_phones.py (docs/benchmarks-server.md): threads with
 # simple-websocket serve 40 phones on loopback with room to spare, and need no
@@ -32,7 +33,7 @@ def create_app(config: dict[str, Any] | None = None) -> Flask:
     ``EBBTIDE_FLOOD_EVENTS`` (messages a phone may send per 10 s, default 20; the
     console gets three times as many).
     """
-    from . import sockets, web  # noqa: F401 - sockets registers its handlers on import
+    from . import frame_guard, sockets, web  # noqa: F401 - sockets registers its handlers on import
     from .console import events as console_events  # noqa: F401 - registers handlers
     from .console import fallbacks  # noqa: F401 - registers handlers
     from .console import routes as console_routes
@@ -94,4 +95,13 @@ def create_app(config: dict[str, Any] | None = None) -> Flask:
         ping_interval=10,
         ping_timeout=20,
     )
+
+    def refuse_event(sid: str, label: str) -> dict:
+        with app.app_context():
+            return sockets.refuse_unknown_event(sid, label)
+
+    # Unreadable frames close their socket; names that are not our events are refused (frame_guard.py).
+    frame_guard.install(socketio.server, refuse_event)
+    # Outermost: security headers on every answer, Engine.IO's long-polling ones included.
+    app.wsgi_app = GuardedWSGI(app.wsgi_app, MAX_MESSAGE_BYTES)
     return app

@@ -288,7 +288,9 @@ def rehearse(db_path: str, url: str, strategy: str, group_codes: str, seed: int,
     chosen = [k for k in keys if not wanted or group_code(k.group) in wanted]
     click.echo(f"rehearsal: {len(chosen)} bot(s) on {record.session_id} at {url}; "
                "start and pace the session from the console")
-    result = play(url, study, chosen, strategy=strategy, seed=seed, max_seconds=minutes * 60)
+    # The bots' credential comes from the session's key in this database: no phone has it.
+    result = play(url, study, chosen, record.secret_key, strategy=strategy, seed=seed,
+                  max_seconds=minutes * 60)
     click.echo(f"{result.acknowledged} decision(s) acknowledged, {result.refused} refused, "
                f"in {result.seconds:.0f} s; session {'ended' if result.finished else 'still running'}")
 

@@ -34,6 +34,8 @@ class PhoneAuth(_Message):
     secret: SeatSecret
     device: ClientId
     agent: Literal["phone", "bot"] = "phone"
+    # Only the rehearsal command knows this (console/access.py ``rehearsal_token``); a bot needs it.
+    rehearsal: Annotated[str, StringConstraints(pattern=r"^[0-9a-f]{40}$")] | None = None
     # True when the secret came from the seat card just now (its link), not from storage:
     # only such a device may take back a seat the facilitator released.
     fresh: bool = False

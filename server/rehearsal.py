@@ -1,10 +1,12 @@
 """Rehearsal: bots play seats of a live session through its real sockets.
 
 Each bot is an ordinary Socket.IO client that presents a seat secret, exactly
-as a phone does (``agent = "bot"``, so its decisions are exported with source
-``bot``), and answers every open round it is shown using a pilot strategy read
-from its own participant view. A researcher uses it to try the room's router
-and laptop before the trip; tests use it to play whole sessions.
+as a phone does, plus the session's rehearsal credential (``agent = "bot"``, so its
+decisions are exported with source ``bot``; a phone cannot claim that without the
+credential, which only the database holds), and answers every open round it is
+shown using a pilot strategy read from its own participant view. A researcher
+uses it to try the room's router and laptop before the trip; tests use it to
+play whole sessions.
 """
 
 from __future__ import annotations
@@ -21,6 +23,7 @@ from ebbtide.game_logic.seeding import strategy_rng
 from ebbtide.game_logic.strategies import choose_from_view
 from ebbtide.game_logic.study import Study
 
+from .console.access import rehearsal_token
 from .store import SeatKey
 
 
@@ -29,6 +32,7 @@ class Bot:
     """One seat played by a strategy; remembers what it sent and what came back."""
 
     key: SeatKey
+    token: str  # console/access.py rehearsal_token: derived from the session's key in the database
     strategy: str
     share: int
     rng: np.random.Generator
@@ -45,7 +49,8 @@ class Bot:
         self.client.on("snapshot", self._on_snapshot)
         self.client.connect(
             url,
-            auth={"secret": self.key.secret, "device": f"bot-{self.key.short_code}", "agent": "bot"},
+            auth={"secret": self.key.secret, "device": f"bot-{self.key.short_code}", "agent": "bot",
+                  "rehearsal": self.token},
             transports=["websocket"],
             wait_timeout=10,
         )
@@ -116,6 +121,7 @@ def rehearse(
     url: str,
     study: Study,
     keys: list[SeatKey],
+    session_secret: str,
     strategy: str = "conditional",
     seed: int = 1,
     think_seconds: tuple[float, float] = (0.2, 1.5),
@@ -124,12 +130,14 @@ def rehearse(
     """Connect one bot per seat key and play until the session ends or time runs out.
 
     The facilitator still paces the session from the console (start, open
-    blocks, end): bots only answer the rounds they are shown.
+    blocks, end): bots only answer the rounds they are shown. ``session_secret`` is the
+    session's key as stored in its database (``SessionRecord.secret_key``).
     """
+    token = rehearsal_token(session_secret)
     rng = strategy_rng(seed)
     share = equal_share_of_sustainable_yield(study)
     bots = [
-        Bot(key, strategy, share, np.random.default_rng(rng.integers(2**63)), think_seconds)
+        Bot(key, token, strategy, share, np.random.default_rng(rng.integers(2**63)), think_seconds)
         for key in keys
     ]
     started = time.monotonic()

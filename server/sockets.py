@@ -13,6 +13,7 @@ event, each with a code and a message that says what is allowed.
 from __future__ import annotations
 
 import functools
+import hmac
 import logging
 import time
 from collections import deque
@@ -26,9 +27,12 @@ from pydantic import BaseModel, ValidationError
 from ebbtide.game_logic.errors import EbbtideError, Refused, ServerError
 
 from .app import socketio
+from .console.access import COOKIE_KEY, logins, rehearsal_token, request_login
+from .frame_guard import RESERVED_EVENTS
 from .messages import ConsoleAuth, PhoneAuth, from_validation_error
 from .phone.view import remember_language
 from .registry import LiveSession, Registry
+from .web import code_guard
 
 FLOOD_EVENTS = 20  # per phone connection, within FLOOD_SECONDS; a person taps far less
 CONSOLE_FLOOD_EVENTS = 60  # a facilitator typing slips seat by seat clicks more often
@@ -47,6 +51,7 @@ class Connection:
     seat: int = -1
     agent: str = "phone"
     recent: deque | None = None
+    login: str = ""  # a console's server-side login id (console/access.py)
 
 
 def registry() -> Registry:
@@ -80,9 +85,15 @@ def send_everyone(live: LiveSession) -> None:
     send_console(live)
 
 
-def send_console(live: LiveSession) -> None:
+def console_state(live: LiveSession) -> dict:
+    """The console's snapshot, with a warning when seat codes are being guessed (``ratelimit``)."""
     snapshot = live.console_snapshot(registry().online())
-    socketio.emit("console_state", snapshot, to=console_room(live.session_id))
+    snapshot["guessing"] = code_guard().report(time.monotonic())
+    return snapshot
+
+
+def send_console(live: LiveSession) -> None:
+    socketio.emit("console_state", console_state(live), to=console_room(live.session_id))
 
 
 def flood_limit(role: str) -> int:
@@ -101,11 +112,14 @@ def _flooding(conn: Connection) -> bool:
         return len(recent) > flood_limit(conn.role)
 
 
-def _admit(event: str, role: str | None) -> Connection:
-    """The connection behind this request, if it may send ``event`` now; else ``Refused``."""
-    conn = registry().connection(request.sid)
+def _admit(event: str, role: str | None, sid: str | None = None) -> Connection:
+    """The connection behind this request (or ``sid``), if it may send ``event`` now; else ``Refused``."""
+    conn = registry().connection(sid or request.sid)
     if conn is None or (role is not None and conn.role != role):
         raise Refused("not_allowed", f"{event!r} is not allowed on this connection")
+    if conn.role == "console" and not logins().check(conn.login, conn.session_id, time.monotonic()):
+        raise Refused("logged_out", "this console login has ended (logged out, or idle too long); "
+                      "log in again with the PIN")
     if _flooding(conn):
         limit = flood_limit(conn.role)
         raise Refused("too_many", f"more than {limit} messages in {FLOOD_SECONDS:g} s; slow down")
@@ -160,11 +174,14 @@ def on_connect(auth=None):
             ConsoleAuth.model_validate(auth)
         except ValidationError as exc:
             raise ConnectionRefusedError(from_validation_error(exc).message) from exc
-        if session.get("console") != live.session_id:
-            raise ConnectionRefusedError("log in to the console with its PIN first")
-        reg.remember(request.sid, Connection("console", live.session_id, recent=deque()))
+        login = request_login(live.session_id, time.monotonic())
+        if login is None:
+            raise ConnectionRefusedError("log in to the console with its PIN first", {"code": "login_needed"})
+        login_id = session[COOKIE_KEY]
+        logins().attach(login_id, request.sid)
+        reg.remember(request.sid, Connection("console", live.session_id, recent=deque(), login=login_id))
         join_room(console_room(live.session_id))
-        emit("console_state", live.console_snapshot(reg.online()))
+        emit("console_state", console_state(live))
         return
     try:
         phone = PhoneAuth.model_validate(auth if auth is not None else {})
@@ -177,6 +194,11 @@ def on_connect(auth=None):
     if found is None:
         raise ConnectionRefusedError("this seat card does not belong to the session being played")
     live, key = found
+    if phone.agent == "bot" and not hmac.compare_digest(
+        phone.rehearsal or "", rehearsal_token(live.record.secret_key)
+    ):
+        raise ConnectionRefusedError("only the rehearsal command may play a seat as a bot; "
+                                     "a phone connects without 'agent'", {"code": "not_a_bot"})
     seat = (key.group, key.seat)
     if phone.device not in live.state.devices.get(seat, []):
         if seat in live.state.released and not phone.fresh:
@@ -203,24 +225,25 @@ def on_disconnect(*_reason):
     reg = registry()
     conn = reg.connection(request.sid)
     reg.forget(request.sid)
+    if conn is not None and conn.login:
+        logins().detach(conn.login, request.sid)
     if conn is not None and conn.role == "phone" and reg.current_id == conn.session_id:
         send_console(reg.current)  # the console shows which phones are offline
 
 
-@socketio.on("*")
-def on_unknown(event, *_args):
-    """Any event nobody handles: refused, saying which events exist."""
+def refuse_unknown_event(sid: str, label: str) -> dict:
+    """An event that is not ours (unknown, a reserved name, not even a name): refused, flood-counted.
+
+    Called by ``frame_guard`` before python-socketio dispatches anything, so names like
+    ``connect`` or ``disconnect`` never reach the connection handlers.
+    """
     try:
-        _admit(str(event)[:40], None)
-        known = sorted(name for name in socketio.server.handlers.get("/", {}) if name not in RESERVED)
-        raise Refused("unknown_event", f"unknown event {str(event)[:40]!r}; allowed: {', '.join(known)}")
+        _admit(label, None, sid)
+        handlers = socketio.server.handlers.get("/", {})
+        known = sorted(name for name in handlers if name not in RESERVED_EVENTS)
+        raise Refused("unknown_event", f"unknown event {label!r}; allowed: {', '.join(known)}")
     except Refused as refusal:
-        body = refusal.as_event(str(event)[:40])
-        emit("problem", body)
-        return body
-
-
-RESERVED = frozenset({"connect", "disconnect", "*"})
+        return refusal.as_event(label)
 
 
 def _session_just_ended(live: LiveSession, change) -> bool:

@@ -30,7 +30,11 @@
 
   socket.on("connect", function () { $("connection").textContent = S.connected; });
   socket.on("disconnect", function () { $("connection").textContent = S.disconnected; });
-  socket.on("connect_error", function () { $("connection").textContent = S.disconnected; });
+  socket.on("connect_error", function (err) {
+    // The login ended (logged out elsewhere, idle too long, or the server restarted): ask for the PIN.
+    if (err && err.data && err.data.code === "login_needed") { window.location.assign("/console/login"); return; }
+    $("connection").textContent = S.disconnected;
+  });
   socket.on("console_state", function (s) {
     if (state && s.seq < state.seq) return;
     state = s;
@@ -58,6 +62,11 @@
 
   function render() {
     if (!state) return;
+    var guessing = state.guessing;
+    $("guessing-warning").hidden = !guessing;
+    if (guessing) {
+      $("guessing-warning").textContent = fmt("guessing", { n: guessing.wrong_codes, minutes: guessing.minutes });
+    }
     $("status-word").textContent = S["status_" + state.status];
     $("start").disabled = state.status !== "setup" || !$("cautions-read").checked;
     $("start").hidden = state.status !== "setup";

@@ -5,9 +5,13 @@ from __future__ import annotations
 import threading
 
 import numpy as np
-from conftest import connect_console, wait_until
+import pytest
+import requests
+import socketio
+from conftest import WAIT_SECONDS, connect_console, connect_phone, wait_until
 
 from ebbtide.game_logic.strategies import choose_from_view
+from ebbtide.server.console.access import rehearsal_token
 from ebbtide.server.rehearsal import rehearse
 
 VIEW = {"max_harvest": 10, "seats": 3}
@@ -29,8 +33,8 @@ def test_bots_play_every_round_of_a_live_session(start_server, demo_study):
     result = {}
     bots = threading.Thread(
         target=lambda: result.update(r=rehearse(
-            server.url, demo_study, server.keys, strategy="sustainable", seed=3,
-            think_seconds=(0.0, 0.05), max_seconds=60,
+            server.url, demo_study, server.keys, server.live.record.secret_key, strategy="sustainable",
+            seed=3, think_seconds=(0.0, 0.05), max_seconds=60,
         )),
         daemon=True,
     )
@@ -50,3 +54,30 @@ def test_bots_play_every_round_of_a_live_session(start_server, demo_study):
     rows = [s for o, sources in live.state.outcomes() for s in sources]
     assert len(rows) == 40 and set(rows) == {"bot"}
     assert all(o.regime_after == "good" for o, _ in live.state.outcomes())
+
+
+def test_a_phone_cannot_call_itself_a_bot(start_server, demo_study):
+    server = start_server(demo_study)
+    key = server.keys[0]
+    stolen_looking = "0" * 40  # the right shape, not the session's credential
+    for auth in ({"agent": "bot"}, {"agent": "bot", "rehearsal": stolen_looking}):
+        client = socketio.Client(reconnection=False)
+        errors = []
+        client.on("connect_error", errors.append)
+        with pytest.raises(socketio.exceptions.ConnectionError):
+            client.connect(server.url, auth={"secret": key.secret, "device": "phone-device-1", **auth},
+                           transports=["websocket"], wait_timeout=WAIT_SECONDS)
+        assert errors and "rehearsal" in errors[0]["message"]
+    kinds = [e.kind for e in server.live.store.events(server.live.session_id)]
+    assert "seat_claimed" not in kinds  # refused before the seat is claimed
+    # The credential is not derivable from anything a phone receives: the page and the snapshot.
+    token = rehearsal_token(server.live.record.secret_key)
+    phone = connect_phone(server.url, key.secret, device="phone-device-1")
+    try:
+        page = requests.get(f"{server.url}/s/{key.secret}", timeout=5).text
+        assert token not in phone.wire_text() and token not in page
+        assert phone.latest()["status"] == "setup"
+    finally:
+        phone.close()
+    bot = connect_phone(server.url, key.secret, device="bot-device-1", agent="bot", rehearsal=token)
+    bot.close()

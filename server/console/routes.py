@@ -14,9 +14,11 @@ from flask_babel import gettext as _
 
 from ebbtide.game_logic.money import decimal_text
 
+from ..app import socketio
 from ..registry import SHORT_CODE_ALPHABET
 from ..store.export import export_session
 from ..web import console_required, limiter, live_session
+from . import access
 from .payment_sheet import money, sheet_csv
 
 bp = Blueprint("console", __name__)
@@ -37,8 +39,9 @@ def console_login():
             problem, status = _("Too many wrong PINs. Try again in %(s)s seconds.", s=int(wait) + 1), 429
         elif live.pin_matches(request.form.get("pin", "")[:40]):
             guard.succeeded(who)
+            access.logins().revoke(session.get(access.COOKIE_KEY))
             session.clear()
-            session["console"] = live.session_id
+            session[access.COOKIE_KEY] = access.logins().open(live.session_id, time.monotonic())
             return redirect(url_for("console.console"), code=303)
         else:
             guard.failed(who, time.monotonic())
@@ -47,10 +50,27 @@ def console_login():
 
 
 @bp.post("/console/logout")
+@console_required
 def console_logout():
-    """Forget the console login on this browser."""
+    """End this console login on the server: the cookie opens nothing any more, its sockets close."""
+    for sid in access.logins().revoke(session.get(access.COOKIE_KEY)):
+        socketio.server.disconnect(sid)
     session.clear()
     return redirect(url_for("console.console_login"), code=303)
+
+
+@bp.app_context_processor
+def console_form_token() -> dict:
+    """``form_token()`` in console templates: the hidden field every console form sends."""
+
+    def form_token() -> str:
+        registry = current_app.extensions["ebbtide"]
+        if registry.current_id is None:
+            return ""
+        login = access.request_login(registry.current_id, time.monotonic())
+        return login.form_token if login else ""
+
+    return {"form_token": form_token, "form_token_field": access.FORM_FIELD}
 
 
 @bp.get("/console")
@@ -83,12 +103,10 @@ def seat_cards():
             "qr_svg": segno.make(link, error="m").svg_inline(border=2, omitsize=True),
         })
     sheets = [cards[i:i + CARDS_PER_SHEET] for i in range(0, len(cards), CARDS_PER_SHEET)]
-    response = current_app.make_response(render_template(
+    return render_template(
         "cards.html", title=live.study.session.title, sheets=sheets, join_url=f"{base}/play",
         alphabet=SHORT_CODE_ALPHABET,
-    ))
-    response.headers["Cache-Control"] = "no-store"
-    return response
+    )
 
 
 @bp.get("/console/export.zip")
