@@ -270,7 +270,8 @@
     $("result-title").textContent = S.last_round + " (" + last.round + ")";
     var list = $("result-list");
     list.textContent = "";
-    fact(list, S.you_asked, last.asked);
+    // A round the facilitator closed before this seat's choice arrived: not "you asked for 0".
+    fact(list, S.you_asked, snap.missed_last_round ? S.no_choice : last.asked);
     fact(list, S.you_got, last.taken + " (+" + last.points + ")");
     if (last.others) fact(list, S.others_took, last.others.join(", "));
     fact(list, S.group_took, last.group_total);

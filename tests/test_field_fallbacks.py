@@ -86,14 +86,14 @@ def test_paper_slips_with_one_bad_value_store_nothing(session):
     assert phones[(1, 1)].harvest("decided-first", 1, 1, 5)["ok"]
     before = len(logged(server))
     ack = console.act("console_slips", {"batch_id": "slips-bad-01", "group": 2, "block": 1, "round": 1,
-                                        "harvests": [3, 4]})
+                                        "harvests": [3, 4], "by": "MK"})
     assert not ack["ok"] and ack["code"] == "already_decided" and "correction" in ack["message"]
     ack = console.act("console_slips", {"batch_id": "slips-bad-02", "group": 2, "block": 1, "round": 1,
-                                        "harvests": [3, 99]})
+                                        "harvests": [3, 99], "by": "MK"})
     assert not ack["ok"] and ack["code"] == "invalid_harvest" and "seat 2" in ack["message"]
     assert len(logged(server)) == before
     assert console.act("console_slips", {"batch_id": "slips-good-1", "group": 2, "block": 1, "round": 1,
-                                         "harvests": [3, None]})["ok"]
+                                         "harvests": [3, None], "by": "MK"})["ok"]
     assert server.live.state.groups[1].outcomes[0].asked == (3, 5)
 
 
@@ -124,7 +124,7 @@ def test_correction_supersedes_the_entry_while_the_round_is_open(session):
                                             "round": 1, "harvest": 2, "supersedes": entry, "by": "MK"})
     assert fixed["ok"]
     stale = console.act("console_correct", {"decision_id": "fix-entry-2", "group": 1, "seat": 1, "block": 1,
-                                            "round": 1, "harvest": 3, "supersedes": entry})
+                                            "round": 1, "harvest": 3, "supersedes": entry, "by": "MK"})
     assert stale["code"] == "stale_entry"
     assert phones[(0, 1)].harvest("other-seat", 1, 1, 5)["ok"]
     assert server.live.state.groups[0].outcomes[0].asked == (2, 5)
@@ -141,7 +141,7 @@ def test_correction_of_a_resolved_round_is_refused_as_immutable(session):
     entry = next(e.id for e in logged(server) if e.decision_id == "resolved-a")
     before = len(logged(server))
     ack = console.act("console_correct", {"decision_id": "too-late-1", "group": 1, "seat": 1, "block": 1,
-                                          "round": 1, "harvest": 1, "supersedes": entry})
+                                          "round": 1, "harvest": 1, "supersedes": entry, "by": "MK"})
     assert ack["code"] == "round_resolved" and "cannot change" in ack["message"]
     assert len(logged(server)) == before
 
@@ -263,3 +263,20 @@ def test_phone_http_client_gets_no_console_page_export_or_cards(session):
         response = requests.get(f"{server.url}{path}", allow_redirects=False, timeout=5)
         assert response.status_code in (302, 303) and "/console/login" in response.headers["Location"], path
         assert server.keys[0].secret not in response.text
+
+
+@pytest.mark.parametrize("by", ["", "   "])
+def test_console_entries_without_initials_are_refused_and_store_nothing(session, by):
+    server, _phones, console = session
+    before = len(logged(server))
+    for event, body in [
+        ("console_enter", {"decision_id": "no-initials-1", "group": 1, "seat": 1, "block": 1, "round": 1,
+                           "harvest": 3, "by": by}),
+        ("console_slips", {"batch_id": "no-initials-2", "group": 1, "block": 1, "round": 1,
+                           "harvests": [1, 2], "by": by}),
+        ("console_correct", {"decision_id": "no-initials-3", "group": 1, "seat": 1, "block": 1, "round": 1,
+                             "harvest": 3, "supersedes": 1, "by": by}),
+    ]:
+        ack = console.act(event, body)
+        assert ack["code"] == "initials_needed" and "Your initials" in ack["message"], event
+    assert len(logged(server)) == before

@@ -34,6 +34,7 @@ def phone_strings() -> dict[str, str]:
         "recorded": _("Your choice is recorded: %(n)s. Waiting for the others."),
         "last_round": _("Last round"),
         "you_asked": _("You asked for"),
+        "no_choice": _("no choice reached the laptop in time"),
         "you_got": _("You got"),
         "group_took": _("Your group took"),
         "others_took": _("The others took"),
