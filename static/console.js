@@ -69,6 +69,13 @@
     return { cls: "seat-online", mark: "\u2022", word: S.online };
   }
 
+  // A seat held by more than one phone (at once, or one after another since its last release).
+  function manyPhones(s) {
+    if (s.online > 1) return " \u00b7 " + fmt("phones", { n: s.online });
+    if (s.devices > 1) return " \u00b7 " + fmt("devices", { n: s.devices });
+    return "";
+  }
+
   function groupLine(g) {
     if (state.status === "setup") return S.status_setup;
     return g.session_over ? S.group_done : g.waiting_for_block ? S.waiting_block : g.paused ? S.group_paused : S.playing;
@@ -91,7 +98,7 @@
         if (s.devices > 0) joined += 1;
         if (s.decided) decided += 1;
         if (s.devices > 0 && s.online === 0) offline += 1;
-        var many = s.online > 1 ? " " + fmt("phones", { n: s.online }) : "";
+        var many = manyPhones(s);
         var mark = el("span", st.mark, "seat-mark " + st.cls + (many ? " seat-many" : ""));
         mark.title = s.seat_id + ": " + st.word + many;
         mark.setAttribute("aria-label", mark.title);
@@ -173,7 +180,8 @@
       var st = seatState(s, g);
       var phone = el("span", st.mark + " " + (s.decided ? (s.online ? S.online : S.offline) : st.word),
                      "seat-word " + st.cls);
-      if (s.online > 1) phone.textContent += " \u00b7 " + fmt("phones", { n: s.online });
+      phone.textContent += manyPhones(s);
+      if (manyPhones(s)) phone.classList.add("seat-many-word");
       var decided = mark(s.decided);
       if (s.decided) decided.textContent += " (" + s.harvest + ")";
       // Trying the game on one laptop: each tab opened here holds one seat.

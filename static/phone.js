@@ -104,6 +104,35 @@
   }
   socket.on("seat_released", released);
 
+  // Another phone holds this seat now: say so plainly, and take it over only when asked to.
+  function offerTakeOver(message) {
+    var box = $("take-over");
+    if (!box) {
+      box = document.createElement("div");
+      box.id = "take-over";
+      box.className = "card take-over";
+      box.setAttribute("role", "alert");
+      var text = document.createElement("p");
+      text.className = "notice notice-problem";
+      var button = document.createElement("button");
+      button.type = "button";
+      button.className = "primary wide";
+      button.textContent = S.take_over;
+      button.addEventListener("click", function () {
+        box.hidden = true;
+        socket.auth.take_over = true;
+        socket.connect();
+      });
+      box.appendChild(text);
+      box.appendChild(button);
+      $("game").insertBefore(box, $("game").firstChild);
+    }
+    box.firstChild.textContent = message;
+    box.hidden = false;
+    $("connection").textContent = "";
+  }
+  socket.on("seat_taken", function () { offerTakeOver(S.seat_taken); });
+
   function send(decision) {
     socket.timeout(8000).emit("harvest", decision, function (err, ack) {
       if (err) return;  // no answer: it is resent on the next connect, with the same id
@@ -115,13 +144,18 @@
   }
 
   socket.on("connect", function () {
+    socket.auth.take_over = false;  // asked once; a later reconnect asks again
     $("connection").textContent = "";
     var decision = pending();
     if (decision) send(decision);
   });
-  socket.on("disconnect", function () { $("connection").textContent = S.offline; });
+  socket.on("disconnect", function () {
+    var box = $("take-over");
+    if (!box || box.hidden) $("connection").textContent = S.offline;
+  });
   socket.on("connect_error", function (err) {
     if (err && err.data && err.data.code === "seat_released") return released(err);
+    if (err && err.data && err.data.code === "seat_in_use") return offerTakeOver(S.seat_in_use);
     $("connection").textContent = err && /seat card/.test(err.message) ? S.unknown_seat : S.offline;
   });
   socket.on("snapshot", function (s) {

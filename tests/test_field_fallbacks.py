@@ -13,6 +13,7 @@ from conftest import (
     WAIT_SECONDS,
     connect_console,
     connect_every_seat,
+    connect_phone,
     console_login,
     wait_until,
 )
@@ -190,28 +191,48 @@ def test_phone_cannot_use_any_console_fall_back(session):
     assert len(logged(server)) == before
 
 
-def _raw_phone(url, secret, device, fresh):
-    """A phone client that records connect errors and seat_released notices."""
+def _raw_phone(url, secret, device, fresh, take_over=False):
+    """A phone client that records connect errors, seat_released and seat_taken notices."""
     client = socketio.Client(reconnection=False)
-    seen = {"errors": [], "released": [], "snapshots": []}
+    seen = {"errors": [], "released": [], "snapshots": [], "taken": []}
     client.on("connect_error", seen["errors"].append)
     client.on("seat_released", seen["released"].append)
+    client.on("seat_taken", seen["taken"].append)
     client.on("snapshot", seen["snapshots"].append)
-    client.connect(url, auth={"secret": secret, "device": device, "fresh": fresh},
+    client.connect(url, auth={"secret": secret, "device": device, "fresh": fresh, "take_over": take_over},
                    transports=["websocket"], wait_timeout=WAIT_SECONDS)
     return client, seen
 
 
-def test_second_device_shows_on_the_console_and_release_leaves_only_the_card_holder(session):
+def test_a_second_phone_on_a_held_seat_is_told_it_is_in_use_and_changes_nothing(session):
+    server, phones, console = session
+    before = len(logged(server))
+    errors = []
+    client = socketio.Client(reconnection=False)
+    client.on("connect_error", errors.append)
+    with pytest.raises(socketio.exceptions.ConnectionError):
+        client.connect(server.url, auth={"secret": server.key(0, 0).secret, "device": "second-device-1",
+                                         "fresh": True}, transports=["websocket"], wait_timeout=WAIT_SECONDS)
+    assert errors[0]["data"]["code"] == "seat_in_use"
+    assert "already in use on another phone" in errors[0]["message"]
+    assert len(logged(server)) == before and phones[(0, 0)].client.connected
+    # The same phone coming back (a reload while its old connection lingers) is not a second phone.
+    again = connect_phone(server.url, server.key(0, 0).secret, device="device-0-0")
+    again.close()
+
+
+def test_second_device_takes_over_shows_on_the_console_and_release_leaves_only_the_card_holder(session):
     server, phones, console = session
     secret = server.key(0, 0).secret
-    second, second_seen = _raw_phone(server.url, secret, "second-device-1", fresh=True)
+    second, second_seen = _raw_phone(server.url, secret, "second-device-1", fresh=True, take_over=True)
     seat = wait_until(lambda: console.states[-1]["groups"][0]["seats"][0]["devices"] == 2
+                      and console.states[-1]["groups"][0]["seats"][0]["online"] == 1
                       and console.states[-1]["groups"][0]["seats"][0], "the console to show two devices")
-    assert seat["online"] == 2
+    assert seat["online"] == 1  # the first phone was let go of, and told why
+    wait_until(lambda: not phones[(0, 0)].client.connected, "the first phone to be let go")
+    assert any(name == "seat_taken" for name, _ in phones[(0, 0)].received)
     assert console.act("console_release_seat", {"group": 1, "seat": 1, "by": "MK"})["ok"]
-    wait_until(lambda: not phones[(0, 0)].client.connected and not second.connected, "both to be let go")
-    assert any(name == "seat_released" for name, _ in phones[(0, 0)].received)
+    wait_until(lambda: not second.connected, "the second phone to be let go")
     assert second_seen["released"][0]["code"] == "seat_released"
     # The older device comes back from its storage: refused, and told why.
     with pytest.raises(socketio.exceptions.ConnectionError):

@@ -59,6 +59,10 @@ def phone_strings() -> dict[str, str]:
         "problem": _("Not accepted: %(message)s"),
         "unknown_seat": _("This seat card is not part of the game being played. Ask the facilitator."),
         "seat_released": _("The facilitator released this seat. If it is yours, scan your seat card again."),
+        "seat_in_use": _("This seat is already in use on another phone. If it is your seat, take it over: "
+                         "the other phone then stops playing it."),
+        "seat_taken": _("This seat was taken over on another phone. If it is your seat, take it back."),
+        "take_over": _("Take over this seat"),
     }
 
 
