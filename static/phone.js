@@ -328,6 +328,30 @@
     $("rationed").hidden = !last.rationed;
   }
 
+  var debriefPage = 0;
+  function debriefPager(d) {
+    var bar = document.createElement("div");
+    bar.className = "debrief-pager";
+    function step(label, arrow, to, id) {
+      var b = document.createElement("button");
+      b.type = "button";
+      b.id = id;
+      b.textContent = arrow;  // the words stay for screen readers and as a tooltip
+      b.setAttribute("aria-label", label);
+      b.title = label;
+      b.disabled = to < 0 || to >= d.blocks.length;
+      b.addEventListener("click", function () { debriefPage = to; renderDebrief(d); });
+      return b;
+    }
+    var count = document.createElement("span");
+    count.className = "pager-count";
+    count.textContent = (debriefPage + 1) + " / " + d.blocks.length;
+    bar.appendChild(step(S.debrief_previous, "\u2190", debriefPage - 1, "debrief-previous"));
+    bar.appendChild(count);
+    bar.appendChild(step(S.debrief_next, "\u2192", debriefPage + 1, "debrief-next"));
+    return bar;
+  }
+
   function renderDebrief(d) {
     $("debrief").hidden = !d;
     if (!d) return;
@@ -337,7 +361,11 @@
     if (!d.blocks.length) {
       var none = document.createElement("p"); none.textContent = S.debrief_none; body.appendChild(none);
     }
-    d.blocks.forEach(function (b) {
+    // One part a screen: a six-part debrief would otherwise be five phone screens long.
+    debriefPage = Math.min(debriefPage, Math.max(0, d.blocks.length - 1));
+    if (d.blocks.length > 1) body.appendChild(debriefPager(d));
+    d.blocks.forEach(function (b, i) {
+      if (i !== debriefPage) return;
       var h = document.createElement("h3");
       h.textContent = fmt("debrief_part", { n: b.part, name: b.name });
       var chart = document.createElement("div");

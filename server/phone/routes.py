@@ -63,6 +63,8 @@ def phone_strings() -> dict[str, str]:
                          "the other phone then stops playing it."),
         "seat_taken": _("This seat was taken over on another phone. If it is your seat, take it back."),
         "take_over": _("Take over this seat"),
+        "debrief_previous": _("Previous part"),
+        "debrief_next": _("Next part"),
     }
 
 
