@@ -7,7 +7,7 @@ to be played (issue: "the projector debrief and the handout open during play").
 from __future__ import annotations
 
 import pytest
-from conftest import connect_console, console_login, study_with, wait_until
+from conftest import ARTIFACTS, connect_console, console_login, study_with, wait_until
 from teach_study import THRESHOLD, teach_study
 
 from ebbtide.game_logic.early_debrief import safe_to_show, thresholds_still_to_play
@@ -90,3 +90,37 @@ def test_early_pages_still_need_the_console_pin(start_server, demo_study, path):
     server = start_server(demo_study)
     response = requests.get(server.url + path, allow_redirects=False, timeout=5)
     assert response.status_code == 302 and "/console/login" in response.headers["Location"]
+
+
+CONFIRM = {"en": "Show these parts now", "es": "Mostrar estas partes ahora",
+           "fr": "Montrer ces parties maintenant"}
+
+
+@pytest.mark.browser
+def test_the_early_debrief_warning_and_its_button_at_laptop_size(start_server, browser):
+    server = start_server(study_with(**REDRAWN), seed=5)
+    console = connect_console(server.url, server.pin)
+    context = browser.new_context(viewport={"width": 1280, "height": 800})
+    try:
+        console.act("console_start")
+        _close_rounds(console, 5)
+        wait_until(lambda: all(p.waiting for p in server.live.state.groups), "block 1 to end")
+        spent = group_threshold(server.live.study, server.seed, 0, 0)
+        page = context.new_page()
+        page.goto(f"{server.url}/console/login")
+        page.locator("#pin").fill(server.pin)
+        page.locator("button[type=submit]").first.click()
+        for lang in ("en", "es", "fr"):
+            page.goto(f"{server.url}/console/debrief?lang={lang}")
+            warning = page.locator(".early-warning")
+            assert warning.is_visible() and "G01" in warning.inner_text()
+            assert f"{spent:.1f}" not in page.locator("body").inner_text()
+            ARTIFACTS.mkdir(exist_ok=True)
+            page.screenshot(path=str(ARTIFACTS / f"debrief-early-warning-{lang}.png"))
+            page.get_by_role("button", name=CONFIRM[lang]).click()
+            page.locator(".debrief-block").first.wait_for()
+            assert f"{spent:.1f}" in page.locator("body").inner_text()
+            page.screenshot(path=str(ARTIFACTS / f"debrief-early-shown-{lang}.png"))
+    finally:
+        context.close()
+        console.close()
