@@ -17,7 +17,7 @@ from .errors import ExportFolderError
 TABLES = tuple(CONTRACT)
 _TEXT = {"session_id", "group_id", "seat_id", "treatment", "source", "regime_after", "regime_before",
          "block_name", "end_reason", "currency"}
-_FLAGS = {"crossed", "recovered", "talk", "show_others"}
+_FLAGS = {"crossed", "recovered", "talk", "show_others", "below_threshold"}
 
 
 @dataclass(frozen=True)
@@ -92,13 +92,14 @@ def sessions_of(package: dict) -> tuple[SessionInfo, ...]:
 
 
 def read_table(folder: Path, name: str) -> pd.DataFrame:
-    """One contract table with ids as text, flags as booleans and an empty threshold as NaN."""
+    """One contract table with ids as text, flags as booleans, an empty threshold or ask as NaN."""
     path = folder / f"{name}.csv"
     if not path.is_file():
         raise ExportFolderError(f"{folder}: {name}.csv is missing; an export holds {', '.join(TABLES)}")
     columns = pd.read_csv(path, nrows=0).columns
     dtype = {c: "string" for c in columns if c in _TEXT}
-    table = pd.read_csv(path, dtype=dtype, keep_default_na=False, na_values={"threshold": [""]})
+    empty = {"threshold": [""], "harvest_asked": [""]}
+    table = pd.read_csv(path, dtype=dtype, keep_default_na=False, na_values=empty)
     for column in _FLAGS & set(table.columns):
         table[column] = table[column].map({"true": True, "false": False, True: True, False: False})
     for column in dtype:

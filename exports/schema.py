@@ -36,10 +36,21 @@ DECISIONS = (
     _TREATMENT,
     _ROUND,
     _STOCK_BEFORE,
-    Column("harvest_asked", "integer", "Harvest the seat asked for", "units"),
+    Column(
+        "harvest_asked",
+        "integer",
+        "Harvest the seat asked for; empty when no choice reached the laptop before the facilitator "
+        "closed the round (source closed)",
+        "units",
+    ),
     Column("harvest_taken", "integer", "Harvest the seat received after rationing", "units"),
     Column("points", "number", "Points earned in the round", "points"),
-    Column("source", "string", "Who entered the decision: phone, console, bot or pilot"),
+    Column(
+        "source",
+        "string",
+        "Who entered the decision: phone, console, bot or pilot; closed when the facilitator closed "
+        "the round before the seat decided (it took 0)",
+    ),
 )
 
 ROUNDS = (
@@ -54,7 +65,11 @@ ROUNDS = (
     Column("stock_after", "integer", "Stock after regrowth, start of the next round", "units"),
     Column("regime_after", "string", "Regime after the round: good or degraded"),
     Column("threshold", "number", "Hidden threshold of the group (empty when none)", "units"),
-    Column("crossed", "boolean", "True when the stock flipped from good to degraded this round"),
+    Column(
+        "crossed",
+        "boolean",
+        "True when the regime flipped from good to degraded this round (see below_threshold)",
+    ),
     Column("regime_before", "string", "Regime at the start of the round: good or degraded"),
     Column("recovered", "boolean", "True when the stock returned to the good regime this round"),
     Column("regrowth", "integer", "stock_after minus remaining", "units"),
@@ -62,6 +77,12 @@ ROUNDS = (
     Column("talk", "boolean", "Whether the block allowed a discussion pause before each round"),
     Column("show_others", "boolean", "Whether individual harvests were shown after each round"),
     Column("end_reason", "string", "Why the block ended after this round (empty if it went on)"),
+    Column(
+        "below_threshold",
+        "boolean",
+        "True when the stock left after the harvest (remaining) lay below the threshold, whether "
+        "or not the regime flipped (risk treatment, or already degraded); false without a threshold",
+    ),
 )
 
 SEATS = (

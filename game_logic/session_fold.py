@@ -47,6 +47,8 @@ from ebbtide.game_logic.treatments import participant_view
 from .errors import Refused, RoundClosed, UnknownGroup, UnknownSeat
 
 SOURCES = ("phone", "console", "bot")
+# A seat with no decision when the facilitator closed its round: it takes 0, but nobody asked for 0.
+CLOSED = "closed"
 # Events that only record what replay derives anyway (kept for people reading the log).
 AUDIT_KINDS = frozenset({"session_created", "round_resolved"})
 GROUP_KINDS = frozenset({"group_paused", "group_resumed"})
@@ -333,7 +335,7 @@ class SessionState:
         progress = self.groups[g]
         state = progress.state
         seats = range(self.study.seats)
-        missing = Decision(0, "console", None)
+        missing = Decision(0, CLOSED, None)
         decisions = [progress.pending.get(s, missing) for s in seats]
         rng = round_rng(self.seed, g, state.block, state.round + 1)
         new_state, outcome = resolve(self.study, state, [d.harvest for d in decisions], rng)
@@ -365,6 +367,8 @@ class SessionState:
             "waiting_for_block": progress.waiting,
             "decided": mine is not None,
             "my_harvest": None if mine is None else mine.harvest,
+            # The facilitator closed the last round before this seat's choice arrived.
+            "missed_last_round": progress.last_outcome is not None and progress.sources[-1][seat] == CLOSED,
             "view": view,
         }
 

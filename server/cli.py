@@ -217,15 +217,21 @@ def serve(
 
 
 @main.command()
+@click.option("--db", "db_path", type=click.Path(dir_okay=False), default=None,
+              help="SQLite file to keep the demo in; start again with it to resume "
+                   "[default: a fresh file in a temporary folder].")
 @_HOST
 @_PORT
-def demo(host: str, port: int) -> None:
-    """Start the built-in demo session (2 groups of 2 seats) on a fresh database in a temp folder."""
+def demo(db_path: str | None, host: str, port: int) -> None:
+    """Start the built-in demo session (2 groups of 2 seats); resumes on the same --db."""
     import tempfile
 
     study = _load(str(example_study(DEMO_STUDY_FILE)))
-    folder = Path(tempfile.mkdtemp(prefix="ebbtide-demo-"))
-    _run_session(study, folder / "demo.db", host, port, None, None)
+    if db_path is None:
+        path = Path(tempfile.mkdtemp(prefix="ebbtide-demo-")) / "demo.db"
+    else:
+        path = Path(db_path).resolve()
+    _run_session(study, path, host, port, None, None)
 
 
 @main.command()

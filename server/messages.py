@@ -39,6 +39,8 @@ class PhoneAuth(_Message):
     # True when the secret came from the seat card just now (its link), not from storage:
     # only such a device may take back a seat the facilitator released.
     fresh: bool = False
+    # The person confirmed taking the seat over from another phone that holds it now.
+    take_over: bool = False
 
 
 class ConsoleAuth(_Message):

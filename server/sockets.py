@@ -21,7 +21,7 @@ from collections.abc import Callable
 from dataclasses import dataclass
 
 from flask import current_app, request, session
-from flask_socketio import ConnectionRefusedError, emit, join_room
+from flask_socketio import ConnectionRefusedError, disconnect, emit, join_room
 from pydantic import BaseModel, ValidationError
 
 from ebbtide.game_logic.errors import EbbtideError, Refused, ServerError
@@ -52,6 +52,7 @@ class Connection:
     agent: str = "phone"
     recent: deque | None = None
     login: str = ""  # a console's server-side login id (console/access.py)
+    device: str = ""
 
 
 def registry() -> Registry:
@@ -162,6 +163,30 @@ def edge(event: str, model: type[BaseModel], role: str) -> Callable:
     return wrap
 
 
+def phones_to_take_over_from(reg: Registry, group: int, seat: int, phone: PhoneAuth) -> list[str]:
+    """Sockets of other phones holding this seat now; refused unless the person confirmed taking over.
+
+    Two phones acting for one seat see each other's choices appear, so the second one is told
+    plainly and asked first (its page offers the take-over, which sends ``take_over``).
+    """
+    others = [sid for sid in reg.seat_sids(group, seat)
+              if (conn := reg.connection(sid)) is not None and conn.device != phone.device]
+    if others and not phone.take_over:
+        raise ConnectionRefusedError(
+            "this seat is already in use on another phone; take it over only if it is yours",
+            {"code": "seat_in_use"},
+        )
+    return others
+
+
+def let_go_of(live: LiveSession, sids: list[str]) -> None:
+    """Tell the phones a seat was taken over from, then close their connections."""
+    notice = Refused("seat_taken", "this seat was taken over on another phone").as_event("seat_taken")
+    for sid in sids:
+        socketio.emit("seat_taken", notice, to=sid)
+        disconnect(sid=sid, namespace="/")
+
+
 @socketio.on("connect")
 def on_connect(auth=None):
     """Admit a phone by its seat secret, or the console by its signed cookie."""
@@ -200,6 +225,7 @@ def on_connect(auth=None):
         raise ConnectionRefusedError("only the rehearsal command may play a seat as a bot; "
                                      "a phone connects without 'agent'", {"code": "not_a_bot"})
     seat = (key.group, key.seat)
+    taken_from = phones_to_take_over_from(reg, key.group, key.seat, phone)
     if phone.device not in live.state.devices.get(seat, []):
         if seat in live.state.released and not phone.fresh:
             # A device the facilitator let go of comes back from its storage: it needs the card again.
@@ -209,9 +235,9 @@ def on_connect(auth=None):
             )
         live.submit("seat_claimed", {"group": key.group, "seat": key.seat, "device": phone.device,
                                      "via": "card" if phone.fresh else "stored"})
-    reg.remember(
-        request.sid, Connection("phone", live.session_id, key.group, key.seat, phone.agent, recent=deque())
-    )
+    reg.remember(request.sid, Connection("phone", live.session_id, key.group, key.seat, phone.agent,
+                                         recent=deque(), device=phone.device))
+    let_go_of(live, taken_from)
     join_room(group_room(live.session_id, key.group))
     join_room(seat_room(live.session_id, key.group, key.seat))
     remember_language(live, key.group, key.seat)  # the seat's words follow its phone

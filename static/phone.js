@@ -130,6 +130,35 @@
     retryDelay = Math.min(retryDelay * 2, RETRY_MAX_MS);
   }
 
+  // Another phone holds this seat now: say so plainly, and take it over only when asked to.
+  function offerTakeOver(message) {
+    var box = $("take-over");
+    if (!box) {
+      box = document.createElement("div");
+      box.id = "take-over";
+      box.className = "card take-over";
+      box.setAttribute("role", "alert");
+      var text = document.createElement("p");
+      text.className = "notice notice-problem";
+      var button = document.createElement("button");
+      button.type = "button";
+      button.className = "primary wide";
+      button.textContent = S.take_over;
+      button.addEventListener("click", function () {
+        box.hidden = true;
+        socket.auth.take_over = true;
+        socket.connect();
+      });
+      box.appendChild(text);
+      box.appendChild(button);
+      $("game").insertBefore(box, $("game").firstChild);
+    }
+    box.firstChild.textContent = message;
+    box.hidden = false;
+    $("connection").textContent = "";
+  }
+  socket.on("seat_taken", function () { offerTakeOver(S.seat_taken); });
+
   function send(decision) {
     socket.timeout(8000).emit("harvest", decision, function (err, ack) {
       var still = pending();
@@ -144,6 +173,7 @@
   }
 
   socket.on("connect", function () {
+    socket.auth.take_over = false;  // asked once; a later reconnect asks again
     $("connection").textContent = "";
     stopRetry();
     var decision = pending();
@@ -151,10 +181,12 @@
   });
   socket.on("disconnect", function () {
     stopRetry();  // the next connect sends it again
-    $("connection").textContent = S.offline;
+    var box = $("take-over");
+    if (!box || box.hidden) $("connection").textContent = S.offline;
   });
   socket.on("connect_error", function (err) {
     if (err && err.data && err.data.code === "seat_released") return released(err);
+    if (err && err.data && err.data.code === "seat_in_use") return offerTakeOver(S.seat_in_use);
     $("connection").textContent = err && /seat card/.test(err.message) ? S.unknown_seat : S.offline;
   });
   socket.on("snapshot", function (s) {
@@ -306,7 +338,8 @@
     $("result-title").textContent = S.last_round + " (" + last.round + ")";
     var list = $("result-list");
     list.textContent = "";
-    fact(list, S.you_asked, last.asked);
+    // A round the facilitator closed before this seat's choice arrived: not "you asked for 0".
+    fact(list, S.you_asked, snap.missed_last_round ? S.no_choice : last.asked);
     fact(list, S.you_got, last.taken + " (+" + last.points + ")");
     if (last.others) fact(list, S.others_took, last.others.join(", "));
     fact(list, S.group_took, last.group_total);
@@ -329,6 +362,30 @@
     $("rationed").hidden = !last.rationed;
   }
 
+  var debriefPage = 0;
+  function debriefPager(d) {
+    var bar = document.createElement("div");
+    bar.className = "debrief-pager";
+    function step(label, arrow, to, id) {
+      var b = document.createElement("button");
+      b.type = "button";
+      b.id = id;
+      b.textContent = arrow;  // the words stay for screen readers and as a tooltip
+      b.setAttribute("aria-label", label);
+      b.title = label;
+      b.disabled = to < 0 || to >= d.blocks.length;
+      b.addEventListener("click", function () { debriefPage = to; renderDebrief(d); });
+      return b;
+    }
+    var count = document.createElement("span");
+    count.className = "pager-count";
+    count.textContent = (debriefPage + 1) + " / " + d.blocks.length;
+    bar.appendChild(step(S.debrief_previous, "\u2190", debriefPage - 1, "debrief-previous"));
+    bar.appendChild(count);
+    bar.appendChild(step(S.debrief_next, "\u2192", debriefPage + 1, "debrief-next"));
+    return bar;
+  }
+
   function renderDebrief(d) {
     $("debrief").hidden = !d;
     if (!d) return;
@@ -338,7 +395,11 @@
     if (!d.blocks.length) {
       var none = document.createElement("p"); none.textContent = S.debrief_none; body.appendChild(none);
     }
-    d.blocks.forEach(function (b) {
+    // One part a screen: a six-part debrief would otherwise be five phone screens long.
+    debriefPage = Math.min(debriefPage, Math.max(0, d.blocks.length - 1));
+    if (d.blocks.length > 1) body.appendChild(debriefPager(d));
+    d.blocks.forEach(function (b, i) {
+      if (i !== debriefPage) return;
       var h = document.createElement("h3");
       h.textContent = fmt("debrief_part", { n: b.part, name: b.name });
       var chart = document.createElement("div");

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import pytest
 
+from ebbtide.exports.tables import decision_rows
 from ebbtide.game_logic.errors import Refused
 from ebbtide.game_logic.rounds import resolve, start_block
 from ebbtide.game_logic.seeding import round_rng
@@ -74,12 +75,16 @@ def test_second_decision_of_a_seat_in_one_round_is_refused(log):
         log.state.check("harvest_submitted", harvest(0, 0, 5))
 
 
-def test_closed_round_gives_missing_seats_zero_from_the_console(log):
+def test_closed_round_records_missing_seats_as_no_decision_not_a_console_zero(log, demo_study):
     log("session_started")
     log("harvest_submitted", harvest(1, 1, 6))
     (outcome,) = log("round_closed", {"group": 1, "block": 1, "round": 1})
-    assert outcome.asked == (0, 6)
-    assert log.state.groups[1].sources == [("console", "phone")]
+    assert outcome.asked == (0, 6)  # the seat takes nothing...
+    assert log.state.groups[1].sources == [("closed", "phone")]  # ...but nobody typed a 0
+    rows = decision_rows(demo_study, "s", outcome, log.state.groups[1].sources[0])
+    assert [(r["harvest_asked"], r["source"]) for r in rows] == [("", "closed"), (6, "phone")]
+    assert log.state.seat_snapshot(1, 0)["missed_last_round"] is True
+    assert log.state.seat_snapshot(1, 1)["missed_last_round"] is False
 
 
 def test_block_waits_for_the_facilitator_then_opens(log, demo_study):

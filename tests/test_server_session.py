@@ -178,14 +178,18 @@ def test_reconnecting_phone_gets_a_full_snapshot_with_its_recorded_choice(sessio
         again.close()
 
 
-def test_console_close_round_gives_missing_seats_zero_from_console(session):
+def test_console_close_round_records_the_missing_seat_as_closed_and_tells_its_phone(session):
     server, phones, console = session
     console.act("console_start")
     phones[(0, 0)].harvest("only-one", 1, 1, 6)
     assert console.act("console_close_round", {"group": 1})["ok"]
     outcome = server.live.state.groups[0].outcomes[0]
     assert outcome.asked == (6, 0)
-    assert server.live.state.groups[0].sources[0] == ("phone", "console")
+    assert server.live.state.groups[0].sources[0] == ("phone", "closed")
+    late = phones[(0, 1)].wait_for(lambda s: "last_round" in s["view"], "the closed round's result")
+    assert late["missed_last_round"] is True
+    decided = phones[(0, 0)].wait_for(lambda s: "last_round" in s["view"], "the result")
+    assert decided["missed_last_round"] is False
 
 
 def test_console_sees_hidden_threshold_marked_hidden(session):

@@ -24,8 +24,12 @@ from ..sockets import (
 
 
 def _console_body(msg, **extra) -> dict:
+    """An entry's event body; refused without initials, so the log says who typed it."""
+    if not msg.by.strip():
+        raise Refused("initials_needed", "type your initials in the 'Your initials' box first; "
+                      "every harvest typed at the console is stored with them")
     body = {"group": msg.group - 1, "block": msg.block, "round": msg.round, "source": "console",
-            "by": msg.by or "console"}
+            "by": msg.by.strip()}
     body.update(extra)
     return body
 

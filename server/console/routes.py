@@ -82,6 +82,20 @@ def console():
                            study=live.study)
 
 
+@bp.get("/console/seat/<int:group>/<int:seat>")
+@console_required
+def open_seat(group: int, seat: int):
+    """Try the game on one laptop: a new tab takes one seat, as its card's QR code would."""
+    live = live_session()
+    key = next((k for k in live.keys if (k.group + 1, k.seat + 1) == (group, seat)), None)
+    if key is None:
+        message = _("There is no seat %(seat)s in group %(group)s; groups run from 1 to %(groups)s, "
+                    "seats from 1 to %(seats)s.", seat=seat, group=group, groups=live.study.groups.count,
+                    seats=live.study.seats)
+        return render_template("teach_refused.html", title=live.study.session.title, message=message), 404
+    return redirect(url_for("phone.join_by_card", secret=key.secret), code=303)
+
+
 def join_base_url() -> str:
     base = current_app.config.get("EBBTIDE_PUBLIC_URL") or request.host_url
     return base.rstrip("/")

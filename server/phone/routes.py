@@ -36,6 +36,7 @@ def phone_strings() -> dict[str, str]:
         "recorded": _("Your choice is recorded: %(n)s. Waiting for the others."),
         "last_round": _("Last round"),
         "you_asked": _("You asked for"),
+        "no_choice": _("no choice reached the laptop in time"),
         "you_got": _("You got"),
         "group_took": _("Your group took"),
         "others_took": _("The others took"),
@@ -60,6 +61,12 @@ def phone_strings() -> dict[str, str]:
         "problem": _("Not accepted: %(message)s"),
         "unknown_seat": _("This seat card is not part of the game being played. Ask the facilitator."),
         "seat_released": _("The facilitator released this seat. If it is yours, scan your seat card again."),
+        "seat_in_use": _("This seat is already in use on another phone. If it is your seat, take it over: "
+                         "the other phone then stops playing it."),
+        "seat_taken": _("This seat was taken over on another phone. If it is your seat, take it back."),
+        "take_over": _("Take over this seat"),
+        "debrief_previous": _("Previous part"),
+        "debrief_next": _("Next part"),
     }
 
 
