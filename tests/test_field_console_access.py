@@ -3,6 +3,7 @@ elsewhere are refused, every answer carries its headers (Engine.IO's long-pollin
 
 from __future__ import annotations
 
+import re
 import time
 
 import pytest
@@ -39,7 +40,7 @@ def console_get_paths(server) -> list[str]:
     for rule in server.app.url_map.iter_rules():
         if "GET" in rule.methods and (rule.rule.startswith("/console") or rule.rule.startswith("/teach")):
             if rule.endpoint != "console.console_login":
-                paths.append(rule.rule.replace("<int:group>", "1"))
+                paths.append(re.sub(r"<int:\w+>", "1", rule.rule))
     return paths
 
 
@@ -148,7 +149,7 @@ def test_every_route_answers_no_store_and_the_security_headers(server):
     for rule in server.app.url_map.iter_rules():
         if rule.endpoint == "static":
             continue
-        path = (rule.rule.replace("<int:group>", "1").replace("<secret>", key.secret))
+        path = re.sub(r"<int:\w+>", "1", rule.rule).replace("<secret>", key.secret)
         if "GET" in rule.methods:
             answer = http.get(f"{server.url}{path}", allow_redirects=False, timeout=5)
         else:

@@ -106,7 +106,8 @@ def test_restart_after_the_end_reopens_the_ended_session(tmp_path):
         sheet = http.get(f"{second.url}/console/payments", timeout=10)
         assert sheet.status_code == 200 and keys[0].short_code in sheet.text
         assert http.get(f"{second.url}/console/debrief", timeout=10).status_code == 200
-        revealed = http.post(f"{second.url}/console/debrief/reveal", allow_redirects=False, timeout=10)
+        revealed = http.post(f"{second.url}/console/debrief/reveal", data={"form_token": http.form_token},
+                             allow_redirects=False, timeout=10)
         assert revealed.status_code == 303
         exported = http.get(f"{second.url}/console/export.zip", timeout=10)
         assert exported.status_code == 200 and exported.content[:2] == b"PK"  # zip magic (PKWARE APPNOTE)
