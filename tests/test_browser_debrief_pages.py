@@ -71,7 +71,9 @@ def _play_six_parts(server):
                 console.act("console_open_block", {"group": None})
         wait_until(lambda: server.live.state.status == "ended", "the session to end")
         http = console_login(server.url, server.pin)
-        assert http.post(server.url + "/console/debrief/reveal", timeout=5).ok
+        revealed = http.post(server.url + "/console/debrief/reveal",
+                             data={"form_token": http.form_token}, timeout=5)
+        assert revealed.ok
     finally:
         for phone in phones.values():
             phone.close()
