@@ -33,7 +33,6 @@ from ebbtide.game_logic.payoffs import points
 from ebbtide.game_logic.rounds import GroupState, RoundOutcome, next_block, resolve, start_block
 from ebbtide.game_logic.seeding import round_rng
 from ebbtide.game_logic.study import Study
-from ebbtide.game_logic.treatments import participant_view
 
 from .errors import Refused
 
@@ -319,23 +318,6 @@ class SessionState:
         return outcome
 
     # -- reading -------------------------------------------------------------
-
-    def seat_snapshot(self, g: int, seat: int) -> dict[str, Any]:
-        """Everything a phone receives: the treatment's view plus neutral UI state."""
-        progress = self.groups[g]
-        view = participant_view(
-            self.study, progress.state, seat, progress.last_outcome, progress.points[seat]
-        )
-        mine = progress.pending.get(seat)
-        return {
-            "seq": self.seq,
-            # A paused group looks like a paused session to its phones: they wait.
-            "status": "paused" if progress.paused and self.status == "running" else self.status,
-            "waiting_for_block": progress.waiting,
-            "decided": mine is not None,
-            "my_harvest": None if mine is None else mine.harvest,
-            "view": view,
-        }
 
     def outcomes(self) -> list[tuple[RoundOutcome, tuple[str, ...]]]:
         """Every resolved round with each seat's source, group by group, in play order."""

@@ -23,7 +23,7 @@ from ebbtide.game_logic.session_fold import Receipt, SessionState, replay
 from ebbtide.game_logic.study import Study, parse_study
 
 from .console.payment_sheet import PaymentSheet, payment_sheet
-from .phone.view import add_to_console_snapshot, add_to_seat_snapshot
+from .phone.view import add_to_console_snapshot, seat_snapshot_payload
 from .store import SeatKey, SessionRecord, Store
 
 # No 0/O, 1/I: a code read aloud or typed on a small keyboard cannot be mistaken.
@@ -118,9 +118,9 @@ class LiveSession:
             return Change(self.state.seq, True, tuple(resolved), receipt)
 
     def seat_snapshot(self, group: int, seat: int) -> dict[str, Any]:
+        """The ``snapshot`` payload of one seat: a validated ``PhoneSnapshot`` as JSON (phone/view.py)."""
         with self._lock:
-            # the stock picture, talk countdown and revealed debrief (phone/view.py)
-            return add_to_seat_snapshot(self, group, seat, self.state.seat_snapshot(group, seat))
+            return seat_snapshot_payload(self, group, seat)
 
     def payment_sheet(self) -> PaymentSheet:
         with self._lock:

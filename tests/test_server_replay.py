@@ -106,12 +106,3 @@ def test_session_ends_by_itself_after_every_group_played_the_last_block(log, dem
             for k in range(1, demo_study.blocks[b].rounds + 1):
                 log("round_closed", {"group": g, "block": b + 1, "round": k})
     assert log.state.status == "ended"
-
-
-def test_snapshot_holds_no_hidden_values(log):
-    log("session_started")
-    log("harvest_submitted", harvest(0, 0, 3))
-    log("harvest_submitted", harvest(0, 1, 3))
-    text = repr(log.state.seat_snapshot(0, 0))
-    for hidden in ("threshold", "flip", "regime", "seed"):
-        assert hidden not in text

@@ -12,6 +12,7 @@ import segno
 from flask import Blueprint, current_app, redirect, render_template, request, send_file, session, url_for
 from flask_babel import gettext as _
 
+from ..phone.view import participant_title
 from ..registry import SHORT_CODE_ALPHABET
 from ..store.export import export_session
 from ..web import console_required, limiter, live_session
@@ -82,7 +83,7 @@ def seat_cards():
         })
     sheets = [cards[i:i + CARDS_PER_SHEET] for i in range(0, len(cards), CARDS_PER_SHEET)]
     response = current_app.make_response(render_template(
-        "cards.html", title=live.study.session.title, sheets=sheets, join_url=f"{base}/play",
+        "cards.html", title=participant_title(live.study), sheets=sheets, join_url=f"{base}/play",
         alphabet=SHORT_CODE_ALPHABET,
     ))
     response.headers["Cache-Control"] = "no-store"

@@ -10,7 +10,7 @@ from ebbtide.exports.tables import group_code
 from ebbtide.game_logic.errors import Refused
 from ebbtide.game_logic.treatments import participant_view
 
-from ..phone.view import gauge_labels, language_choices, phone_more_strings
+from ..phone.view import gauge_labels, language_choices, participant_title, phone_more_strings
 from ..pictures.gauge import stock_gauge_svg
 from ..web import console_required, live_session
 from .revealed import debrief_blocks
@@ -39,7 +39,7 @@ def _groups(live) -> list[dict]:
 def _render_debrief(problem: str | None = None, status: int = 200):
     live = live_session()
     return render_template(
-        "debrief.html", title=live.study.session.title, groups=_groups(live), study=live.study,
+        "debrief.html", title=participant_title(live.study), groups=_groups(live), study=live.study,
         revealed=live.state.debrief_revealed, session_status=live.state.status, problem=problem,
     ), status
 
@@ -77,8 +77,8 @@ def handout(group: int):
                                message=_("There is no group %(g)s; groups run from 1 to %(n)s.",
                                          g=group, n=count)), 404
     blocks = debrief_blocks(live, group - 1, "handout")
-    return render_template("handout.html", title=live.study.session.title, group_id=group_code(group - 1),
-                           blocks=blocks, study=live.study)
+    return render_template("handout.html", title=participant_title(live.study),
+                           group_id=group_code(group - 1), blocks=blocks, study=live.study)
 
 
 def _teaching_refused():
@@ -107,7 +107,7 @@ def teaching_view():
     live = live_session()
     if not live.study.session.teaching_view:
         return _teaching_refused()
-    return render_template("teach.html", title=live.study.session.title, groups=teaching_gauges(live))
+    return render_template("teach.html", title=participant_title(live.study), groups=teaching_gauges(live))
 
 
 @bp.get("/teach/gauges.json")
