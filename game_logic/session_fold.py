@@ -30,7 +30,6 @@ from collections.abc import Iterable
 from dataclasses import dataclass, field, fields, replace
 from typing import Any
 
-from ebbtide.game_logic.money import earnings
 from ebbtide.game_logic.rounds import (
     GroupState,
     RoundOutcome,
@@ -42,7 +41,6 @@ from ebbtide.game_logic.rounds import (
 )
 from ebbtide.game_logic.seeding import round_rng
 from ebbtide.game_logic.study import Study
-from ebbtide.game_logic.treatments import participant_view
 
 from .errors import Refused, RoundClosed, UnknownGroup, UnknownSeat
 
@@ -351,26 +349,6 @@ class SessionState:
         return outcome
 
     # -- reading -------------------------------------------------------------
-
-    def seat_snapshot(self, g: int, seat: int) -> dict[str, Any]:
-        """Everything a phone receives: the treatment's view plus neutral UI state."""
-        progress = self.groups[g]
-        view = participant_view(
-            self.study, progress.state, seat, progress.last_outcome,
-            earnings(progress.units[seat], self.study.payment).points,
-        )
-        mine = progress.pending.get(seat)
-        return {
-            "seq": self.seq,
-            # A paused group looks like a paused session to its phones: they wait.
-            "status": "paused" if progress.paused and self.status == "running" else self.status,
-            "waiting_for_block": progress.waiting,
-            "decided": mine is not None,
-            "my_harvest": None if mine is None else mine.harvest,
-            # The facilitator closed the last round before this seat's choice arrived.
-            "missed_last_round": progress.last_outcome is not None and progress.sources[-1][seat] == CLOSED,
-            "view": view,
-        }
 
     def outcomes(self) -> list[tuple[RoundOutcome, tuple[str, ...]]]:
         """Every resolved round with each seat's source, group by group, in play order."""

@@ -25,7 +25,7 @@ from ebbtide.game_logic.study import Study, parse_study
 
 from .console.payment_sheet import PaymentSheet, payment_sheet
 from .console.talk import TalkPauses
-from .phone.view import add_to_console_snapshot, add_to_seat_snapshot
+from .phone.view import add_to_console_snapshot, seat_snapshot_payload
 from .ratelimit import FailureLimiter
 from .store import SeatKey, SessionRecord, Store
 
@@ -148,9 +148,8 @@ class LiveSession:
             return Change(draft.seq, True, tuple(resolved), receipt)
 
     def seat_snapshot(self, group: int, seat: int) -> dict[str, Any]:
-        version = self.pinned()
-        # the stock picture, talk countdown and revealed debrief (phone/view.py)
-        return add_to_seat_snapshot(version, group, seat, version.state.seat_snapshot(group, seat))
+        """The ``snapshot`` payload of one seat: a validated ``PhoneSnapshot`` as JSON (phone/view.py)."""
+        return seat_snapshot_payload(self.pinned(), group, seat)
 
     def payment_sheet(self) -> PaymentSheet:
         return payment_sheet(self.state, self.keys)

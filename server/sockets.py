@@ -4,8 +4,8 @@ The events themselves live with their client: ``phone/events.py`` and ``console/
 
 Phones identify themselves on every (re)connect with their seat secret and get
 a full snapshot with a sequence number, so a missed event never matters. What
-a phone receives is built only by ``SessionState.seat_snapshot`` (the
-treatment's ``participant_view`` plus neutral UI state). Every refusal reaches
+a phone receives as its screen is built only by ``game_logic.phone_snapshot``
+(a validated ``PhoneSnapshot``, sent as its JSON dump). Every refusal reaches
 the client twice: as the acknowledgement of its request and as a ``problem``
 event, each with a code and a message that says what is allowed.
 """

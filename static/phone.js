@@ -401,12 +401,13 @@
     d.blocks.forEach(function (b, i) {
       if (i !== debriefPage) return;
       var h = document.createElement("h3");
-      h.textContent = fmt("debrief_part", { n: b.part, name: b.name });
+      // The study's participant-facing label, if it gave one; never the researcher's block name.
+      h.textContent = b.label ? fmt("debrief_part", { n: b.part, name: b.label }) : fmt("debrief_part_plain", { n: b.part });
       var chart = document.createElement("div");
       chart.className = "debrief-chart";
       chart.innerHTML = b.svg;  // drawn and escaped by the server, after the facilitator's reveal
       var level = document.createElement("p");
-      if (b.threshold !== null) {
+      if (b.threshold != null) {  // absent when the study has no danger level
         level.textContent = fmt("debrief_level", { level: b.threshold, recovery: b.recovery_level }) + " " +
           (b.crossed_round ? fmt("debrief_crossed", { round: b.crossed_round }) : S.debrief_never);
       }
@@ -424,6 +425,8 @@
     $("seat-line").textContent = fmt("your_seat", { seat: v.seat, seats: v.seats }) + " · " +
       (v.rounds_in_block ? fmt("block_round_of", { block: v.block, blocks: v.blocks, round: v.round, rounds: v.rounds_in_block })
                          : fmt("block_round", { block: v.block, blocks: v.blocks, round: v.round }));
+    $("block-label").textContent = v.block_label || "";
+    $("block-label").hidden = !v.block_label;
     $("gauge").innerHTML = snap.gauge_svg;  // drawn on the server from this seat's view only
     var danger = dangerText(v.danger);
     $("danger").textContent = danger;

@@ -15,6 +15,7 @@ from flask_babel import gettext as _
 from ebbtide.game_logic.money import decimal_text
 
 from ..app import socketio
+from ..phone.view import participant_title
 from ..registry import SHORT_CODE_ALPHABET
 from ..store.export import export_session
 from ..web import console_required, limiter, live_session
@@ -118,7 +119,7 @@ def seat_cards():
         })
     sheets = [cards[i:i + CARDS_PER_SHEET] for i in range(0, len(cards), CARDS_PER_SHEET)]
     return render_template(
-        "cards.html", title=live.study.session.title, sheets=sheets, join_url=f"{base}/play",
+        "cards.html", title=participant_title(live.study), sheets=sheets, join_url=f"{base}/play",
         alphabet=SHORT_CODE_ALPHABET,
     )
 

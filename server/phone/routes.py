@@ -10,6 +10,7 @@ from flask_babel import gettext as _
 
 from ..registry import SHORT_CODE_LENGTH
 from ..web import SECRET_PATTERN, code_guard, live_session, registry
+from .view import participant_title
 
 bp = Blueprint("phone", __name__)
 
@@ -81,7 +82,7 @@ def _render_phone(secret: str | None = None, problem: str | None = None, status:
     live = live_session()
     return render_template(
         "phone.html",
-        title=live.study.session.title,
+        title=participant_title(live.study),  # never the researcher's session.title
         secret=secret or "",
         problem=problem,
         strings=phone_strings(),

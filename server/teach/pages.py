@@ -11,7 +11,7 @@ from ebbtide.game_logic.early_debrief import safe_to_show, thresholds_still_to_p
 from ebbtide.game_logic.errors import Refused
 from ebbtide.game_logic.treatments import participant_view
 
-from ..phone.view import gauge_labels, language_choices, phone_more_strings
+from ..phone.view import gauge_labels, language_choices, participant_title, phone_more_strings
 from ..pictures.gauge import stock_gauge_svg
 from ..web import console_required, live_session
 from .revealed import debrief_blocks
@@ -71,7 +71,7 @@ def _render_debrief(problem: str | None = None, status: int = 200):
     groups = _groups(live, early)
     gives_away = [_named(g["group_id"], b) for g in groups for b in g["safe_now"]]
     return render_template(
-        "debrief.html", title=live.study.session.title, groups=groups, study=live.study,
+        "debrief.html", title=participant_title(live.study), groups=groups, study=live.study,
         revealed=live.state.debrief_revealed, session_status=live.state.status, problem=problem,
         ended=ended, early=early, gives_away=gives_away,
     ), status
@@ -119,7 +119,7 @@ def handout(group: int):
     early = _early_wanted() and not ended
     showing = ended or early
     return render_template(
-        "handout.html", title=live.study.session.title, group_id=group_code(group - 1), study=live.study,
+        "handout.html", title=participant_title(live.study), group_id=group_code(group - 1), study=live.study,
         blocks=safe if showing else [], held=held if showing else [], ended=ended, early=early,
         gives_away=[_named(group_code(group - 1), b) for b in safe],
     )
@@ -151,7 +151,7 @@ def teaching_view():
     live = live_session()
     if not live.study.session.teaching_view:
         return _teaching_refused()
-    return render_template("teach.html", title=live.study.session.title, groups=teaching_gauges(live))
+    return render_template("teach.html", title=participant_title(live.study), groups=teaching_gauges(live))
 
 
 @bp.get("/teach/gauges.json")
