@@ -11,7 +11,7 @@ from pathlib import Path
 from ebbtide.game_logic.money import decimal_text
 from ebbtide.game_logic.study import Study
 
-from .schema import CONTRACT, Column
+from .schema import BOOLEAN_LABELS, CONTRACT, FALSE_VALUES, FOREIGN_KEYS, PRIMARY_KEYS, TRUE_VALUES, Column
 
 FORMAT_VERSION = "1"
 
@@ -20,12 +20,25 @@ def _field(column: Column) -> dict:
     field = {"name": column.name, "type": column.type, "description": column.description}
     if column.unit:
         field["unit"] = column.unit
+    if column.constraints:
+        field["constraints"] = dict(column.constraints)
+    if column.type == "boolean":
+        field.update(trueValues=TRUE_VALUES, falseValues=FALSE_VALUES,
+                     valueLabels={str(k): v for k, v in BOOLEAN_LABELS.items()})
     return field
+
+
+def table_schema(name: str) -> dict:
+    """Table Schema of one contract table: fields, primary key and foreign keys."""
+    schema = {"fields": [_field(c) for c in CONTRACT[name]], "primaryKey": PRIMARY_KEYS[name]}
+    if FOREIGN_KEYS[name]:
+        schema["foreignKeys"] = FOREIGN_KEYS[name]
+    return schema
 
 
 def _cell(value):
     if isinstance(value, bool):
-        return "true" if value else "false"
+        return "1" if value else "0"  # R's read.csv and Stata read 0/1 as numbers
     if isinstance(value, float):
         # Whole numbers without ".0" keep the CSV readable; others keep full precision.
         return str(int(value)) if value.is_integer() else repr(value)
@@ -36,7 +49,7 @@ def _cell(value):
 
 
 def write_table(path: Path, columns: tuple[Column, ...], rows: list[dict]) -> None:
-    """Write one CSV table (UTF-8, one header row, Table Schema booleans)."""
+    """Write one CSV table (UTF-8, one header row, booleans as 0/1)."""
     names = [c.name for c in columns]
     with path.open("w", encoding="utf-8", newline="") as handle:
         writer = csv.writer(handle, lineterminator="\n")
@@ -59,9 +72,9 @@ def descriptor(study: Study, session_id: str, seed: int, source: str) -> dict:
                 "format": "csv",
                 "mediatype": "text/csv",
                 "encoding": "utf-8",
-                "schema": {"fields": [_field(c) for c in columns]},
+                "schema": table_schema(name),
             }
-            for name, columns in CONTRACT.items()
+            for name in CONTRACT
         ],
         "ebbtide": {
             "format_version": FORMAT_VERSION,

@@ -18,6 +18,11 @@ DEMO_STUDY_FILE = "brackwater-demo.toml"
 def _load(path: str) -> Study:
     try:
         return load_study(path)
+    except (UnicodeDecodeError, ValueError) as exc:
+        # A binary or non-UTF-8 file: the study reader only knows text.
+        click.echo(f"{path}: not a study file ({exc.__class__.__name__}); allowed: a UTF-8 TOML text file",
+                   err=True)
+        sys.exit(2)
     except StudyError as exc:
         click.echo(f"{path}: the study file has {len(exc.problems)} problem(s):", err=True)
         for problem in exc.problems:
@@ -121,7 +126,7 @@ def report(folder: str, out_file: str, seed: int) -> None:
 
     try:
         written = write_report(folder, out_file, seed=seed)
-    except EbbtideError as exc:
+    except (EbbtideError, ValueError) as exc:
         click.echo(f"report not written: {exc}", err=True)
         sys.exit(2)
     click.echo(f"wrote {written.html} and {len(written.tables)} table(s) as CSV next to it")
@@ -234,6 +239,28 @@ def demo(db_path: str | None, host: str, port: int) -> None:
     _run_session(study, path, host, port, None, None)
 
 
+def _not_a_session_database(path: Path) -> str | None:
+    """Why ``path`` is not a session database, checked read-only (opening the store would add tables)."""
+    import sqlite3
+
+    with path.open("rb") as handle:
+        if handle.read(16) != b"SQLite format 3\x00":
+            return "not an SQLite database"
+    try:
+        connection = sqlite3.connect(f"{path.resolve().as_uri()}?mode=ro", uri=True)
+        try:
+            listed = connection.execute("SELECT name FROM sqlite_master WHERE type='table'")
+            names = {row[0] for row in listed}
+            if not {"sessions", "events"} <= names:
+                return "an SQLite database without Ebbtide's sessions and events tables"
+            connection.execute("PRAGMA quick_check").fetchall()
+        finally:
+            connection.close()
+    except sqlite3.DatabaseError as exc:
+        return f"a damaged SQLite database ({exc})"
+    return None
+
+
 @main.command()
 @click.argument("db_path", type=click.Path(exists=True, dir_okay=False))
 @click.option("--out", "out_dir", type=click.Path(file_okay=False), required=True,
@@ -241,19 +268,48 @@ def demo(db_path: str | None, host: str, port: int) -> None:
 @click.option("--stata", is_flag=True, help="Also write each table as a Stata .dta file.")
 def export(db_path: str, out_dir: str, stata: bool) -> None:
     """Write the export tables of every session stored in DB_PATH."""
-    from ebbtide.analysis.pool import write_stata
+    import shutil
+    import sqlite3
+    import tempfile
+
+    from ebbtide.exports.stata import write_stata
+    from ebbtide.game_logic.errors import EbbtideError
     from ebbtide.server.store.export import export_database
 
-    folders = export_database(db_path, out_dir)
+    problem = _not_a_session_database(Path(db_path))
+    if problem:
+        click.echo(f"{db_path}: {problem}; nothing written; allowed: a session database written by "
+                   "ebbtide serve", err=True)
+        sys.exit(2)
+    out = Path(out_dir)
+    if out.exists() and (not out.is_dir() or any(out.iterdir())):
+        click.echo(f"{out}: already exists and is not an empty folder; choose a new folder for --out",
+                   err=True)
+        sys.exit(2)
+    out.parent.mkdir(parents=True, exist_ok=True)
+    # Written beside --out and renamed at the end: a damaged database leaves nothing behind.
+    staging = Path(tempfile.mkdtemp(prefix=f".{out.name}-", dir=out.parent))
+    try:
+        folders = export_database(db_path, staging)
+        if stata:
+            for folder in folders:
+                write_stata(folder)
+    except (sqlite3.DatabaseError, EbbtideError, KeyError, ValueError, UnicodeDecodeError) as exc:
+        shutil.rmtree(staging, ignore_errors=True)
+        click.echo(f"{db_path}: cannot be exported, nothing written ({exc}); allowed: a session database "
+                   "written by ebbtide serve", err=True)
+        sys.exit(2)
     if not folders:
+        shutil.rmtree(staging, ignore_errors=True)
         click.echo(f"{db_path} holds no session; nothing written", err=True)
         sys.exit(1)
+    if out.exists():
+        out.rmdir()
+    staging.rename(out)
     for folder in folders:
-        extra = ""
-        if stata:
-            write_stata(folder)
-            extra = " and .dta"
-        click.echo(f"wrote {folder}/decisions.csv, rounds.csv, seats.csv{extra}, datapackage.json")
+        final = out / folder.relative_to(staging)
+        extra = " and .dta" if stata else ""
+        click.echo(f"wrote {final}/decisions.csv, rounds.csv, seats.csv{extra}, datapackage.json")
 
 
 @main.command()
