@@ -72,8 +72,8 @@ ROUNDS = (
     Column("stock_after", "integer", "Stock after regrowth, start of the next round", "units", _COUNT),
     Column("regime_after", "string", "Regime after the round: good or degraded", "", _REGIME),
     Column("threshold", "number", "Hidden threshold of the group (empty when none)", "units", {"minimum": 0}),
-    Column("crossed", "boolean", "1 when the regime flipped from good to degraded this round, else 0 (see below_threshold)", "",
-           _REQUIRED),
+    Column("crossed", "boolean", "1 when the regime flipped from good to degraded this round, else 0 "
+           "(see below_threshold)", "", _REQUIRED),
     Column("regime_before", "string", "Regime at the start of the round: good or degraded", "", _REGIME),
     Column("recovered", "boolean", "1 when the stock returned to the good regime this round, else 0", "",
            _REQUIRED),
