@@ -220,7 +220,9 @@ def read_table(folder: Path, name: str, allow_empty: bool = False) -> pd.DataFra
             if not np.isfinite(numbers.dropna()).all():
                 index = _first_bad(numbers.isin([np.inf, -np.inf]))
                 raise _problem(path, index + 1, column.name, values.iloc[index], f"a finite {kind[2:]}")
-            table[column.name] = numbers.astype("int64" if column.type == "integer" else float)
+            # An optional whole number (the ask of a closed round) stays float so that it can be empty.
+            whole = column.type == "integer" and required
+            table[column.name] = numbers.astype("int64" if whole else float)
         elif column.type == "boolean":
             flags = values.map(_BOOLEAN)
             if flags.isna().any():
@@ -238,6 +240,13 @@ def read_table(folder: Path, name: str, allow_empty: bool = False) -> pd.DataFra
     for extra in raw.columns:
         if extra not in table.columns:
             table[extra] = raw[extra]
+    if name == "decisions" and {"harvest_asked", "source"} <= set(table.columns):
+        # No ask is recorded only where the facilitator closed the round before the seat decided.
+        unexplained = table["harvest_asked"].isna() & (table["source"] != "closed")
+        if unexplained.any():
+            index = _first_bad(unexplained)
+            raise _problem(path, index + 1, "harvest_asked", "", "a whole number >= 0 (empty only when "
+                           "source is closed)")
     key = PRIMARY_KEYS[name]
     repeated = table.duplicated(key, keep="first")
     if repeated.any():
