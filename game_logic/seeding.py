@@ -25,3 +25,25 @@ def round_rng(seed: int, group: int, block: int, round_number: int) -> np.random
 def strategy_rng(seed: int) -> np.random.Generator:
     """Generator for simulated players' own noise (pilot and rehearsal bots)."""
     return np.random.default_rng([seed, STRATEGY_STREAM])
+
+
+BEHAVIOUR_STREAM = 4
+SIMULATION_STREAM = 5
+
+
+def behaviour_rng(seed: int, group: int, block: int) -> np.random.Generator:
+    """Generator of one group's simulated players in one block.
+
+    Its first draws are the seats' uniforms, ``random((rounds, seats))`` in play
+    order; pilot, rehearsal bots and power analysis all read them this way.
+    """
+    return np.random.default_rng([seed, BEHAVIOUR_STREAM, group, block])
+
+
+def simulation_rng(seed: int, group: int) -> np.random.Generator:
+    """Generator of a power-analysis group's own round draws (threshold, flips, stops).
+
+    Live sessions and the pilot use ``round_rng`` per round; simulating hundreds of
+    thousands of groups draws a whole group's rounds from one generator instead.
+    """
+    return np.random.default_rng([seed, SIMULATION_STREAM, group])

@@ -8,6 +8,7 @@ from pathlib import Path
 
 import click
 
+from ebbtide.game_logic.behaviour import MODEL_NAMES
 from ebbtide.game_logic.errors import StudyError
 from ebbtide.game_logic.study import Study, load_study
 from ebbtide.server.resources import example_study
@@ -52,8 +53,9 @@ def check(study_file: str) -> None:
               help="Simulated groups to play through the design.")
 @click.option("--seed", type=click.IntRange(0, 2**63 - 1), default=1, show_default=True,
               help="Seed of every random draw (thresholds, flips, stops, player noise).")
-@click.option("--strategy", type=click.Choice(["max", "sustainable", "conditional"]),
-              default="conditional", show_default=True, help="How the simulated players harvest.")
+@click.option("--strategy", type=click.Choice(["max", *MODEL_NAMES]),
+              default="conditional", show_default=True,
+              help="Behaviour model of the simulated players (docs/behaviour-models.md).")
 @click.option("--out", "out_dir", type=click.Path(file_okay=False), required=True,
               help="Folder for decisions.csv, rounds.csv, seats.csv and datapackage.json.")
 def pilot(study_file: str, groups: int, seed: int, strategy: str, out_dir: str) -> None:
@@ -225,8 +227,9 @@ def export(db_path: str, out_dir: str, stata: bool) -> None:
 @main.command()
 @click.argument("db_path", type=click.Path(exists=True, dir_okay=False))
 @click.option("--url", required=True, help="Address of the running session, e.g. http://127.0.0.1:8750.")
-@click.option("--strategy", type=click.Choice(["max", "sustainable", "conditional"]),
-              default="conditional", show_default=True, help="How the bots harvest.")
+@click.option("--strategy", type=click.Choice(["max", *MODEL_NAMES]),
+              default="conditional", show_default=True,
+              help="Behaviour model of the bots (docs/behaviour-models.md).")
 @click.option("--groups", "group_codes", default="",
               help="Comma-separated group codes the bots play (e.g. G01,G02) [default: every group].")
 @click.option("--seed", type=click.IntRange(0, 2**63 - 1), default=1, show_default=True,

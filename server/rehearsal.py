@@ -2,8 +2,9 @@
 
 Each bot is an ordinary Socket.IO client that presents a seat secret, exactly
 as a phone does (``agent = "bot"``, so its decisions are exported with source
-``bot``), and answers every open round it is shown using a pilot strategy read
-from its own participant view. A researcher uses it to try the room's router
+``bot``), and answers every open round it is shown with a behaviour model
+(``game_logic.behaviour``) read from its own participant view: the same code and
+the same per-group draws as the pilot. A researcher uses it to try the room's router
 and laptop before the trip; tests use it to play whole sessions.
 """
 
@@ -16,9 +17,8 @@ from dataclasses import dataclass, field
 import numpy as np
 import socketio
 
-from ebbtide.game_logic.benchmarks import equal_share_of_sustainable_yield
+from ebbtide.game_logic.behaviour import Model, choose_from_view, make_model
 from ebbtide.game_logic.seeding import strategy_rng
-from ebbtide.game_logic.strategies import choose_from_view
 from ebbtide.game_logic.study import Study
 
 from .store import SeatKey
@@ -26,11 +26,16 @@ from .store import SeatKey
 
 @dataclass
 class Bot:
-    """One seat played by a strategy; remembers what it sent and what came back."""
+    """One seat played by a behaviour model; remembers what it sent and what came back.
+
+    ``rng`` paces the bot (thinking time); its choices come from the model and the
+    seed tree, keyed by its group.
+    """
 
     key: SeatKey
-    strategy: str
-    share: int
+    model: Model
+    study: Study
+    seed: int
     rng: np.random.Generator
     think_seconds: tuple[float, float]
     client: socketio.Client = field(default_factory=lambda: socketio.Client(reconnection=True))
@@ -67,7 +72,7 @@ class Bot:
             if not open_round or self._asking == where:
                 return
             self._asking = where
-            harvest = choose_from_view(self.strategy, view, self.share, self.rng)
+            harvest = choose_from_view(self.model, self.study, view, self.seed, self.key.group)
             pause = float(self.rng.uniform(*self.think_seconds))
         threading.Timer(pause, self._send, args=(where, harvest)).start()
 
@@ -116,7 +121,7 @@ def rehearse(
     url: str,
     study: Study,
     keys: list[SeatKey],
-    strategy: str = "conditional",
+    strategy: Model | str = "conditional",
     seed: int = 1,
     think_seconds: tuple[float, float] = (0.2, 1.5),
     max_seconds: float = 600.0,
@@ -126,10 +131,10 @@ def rehearse(
     The facilitator still paces the session from the console (start, open
     blocks, end): bots only answer the rounds they are shown.
     """
-    rng = strategy_rng(seed)
-    share = equal_share_of_sustainable_yield(study)
+    model = make_model(strategy, study) if isinstance(strategy, str) else strategy
+    pace = strategy_rng(seed)
     bots = [
-        Bot(key, strategy, share, np.random.default_rng(rng.integers(2**63)), think_seconds)
+        Bot(key, model, study, seed, np.random.default_rng(pace.integers(2**63)), think_seconds)
         for key in keys
     ]
     started = time.monotonic()
