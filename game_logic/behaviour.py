@@ -157,6 +157,8 @@ class Model:
     name: ClassVar[str] = ""
     # Parameters the fitting estimates, with their bounds.
     bounds: ClassVar[dict[str, tuple[float, float]]] = {}
+    # Whether choices depend on the health signal's band (costly to compute for every round).
+    reads_signal: ClassVar[bool] = False
 
     def ask(self, obs: Observation, u: NDArray[np.float64]) -> NDArray[np.int64]:
         raise NotImplementedError
@@ -289,6 +291,7 @@ class ThresholdAverse(Model):
     """
 
     name: ClassVar[str] = "threshold-averse"
+    reads_signal: ClassVar[bool] = True
     bounds: ClassVar[dict[str, tuple[float, float]]] = {
         "margin": (-50.0, 100.0), "caution": (0.0, 1.0), "vague_level": (0.0, 1.0), "noise": (0.05, 50.0),
     }
@@ -369,3 +372,60 @@ def choose_from_view(model: Model, study: Study, view: Mapping[str, Any], seed: 
     block, round_number, seat = int(view["block"]) - 1, int(view["round"]), int(view["seat"]) - 1
     u = seat_uniforms(seed, group, block, study.blocks[block].rounds, study.seats)[round_number - 1, seat]
     return int(model.ask(observation_from_view(view), np.array([[u]]))[0, 0])
+
+
+def read_parameter_file(text: str, where: str = "parameter file") -> tuple[str, dict[str, float]]:
+    """Model name and parameters from a parameter file's TOML text (``ebbtide fit`` writes them)."""
+    import tomllib
+
+    try:
+        raw = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise ValueError(f"{where}: not valid TOML: {exc}") from exc
+    name = raw.get("model")
+    if not isinstance(name, str):
+        raise ValueError(f"{where}: needs a line model = \"NAME\"; allowed names: {', '.join(MODEL_NAMES)}")
+    parameters = raw.get("parameters", {})
+    if not isinstance(parameters, dict) or not all(
+        isinstance(v, (int, float)) and not isinstance(v, bool) for v in parameters.values()
+    ):
+        raise ValueError(f"{where}: [parameters] must hold numbers only, e.g. noise = 1.5")
+    return name, {k: float(v) for k, v in parameters.items()}
+
+
+def parameter_file_text(name: str, parameters: Mapping[str, float | None],
+                        **tables: Mapping[str, float | int | str]) -> str:
+    """TOML text of a parameter file; extra ``tables`` (standard errors, fit summary) ride along."""
+    def value(v) -> str:
+        if isinstance(v, str):
+            return '"' + v.replace("\\", "\\\\").replace('"', '\\"') + '"'
+        if isinstance(v, float) and not np.isfinite(v):
+            return '"nan"' if np.isnan(v) else ('"inf"' if v > 0 else '"-inf"')
+        return repr(v) if isinstance(v, float) else str(v)
+
+    lines = [f"model = {value(name)}", "", "[parameters]"]
+    lines += [f"{k} = {value(float(v))}" for k, v in parameters.items() if v is not None]
+    for table, entries in tables.items():
+        lines += ["", f"[{table}]"] + [f"{k} = {value(v)}" for k, v in entries.items()]
+    return "\n".join(lines) + "\n"
+
+
+def load_model(spec: str, study: Study) -> Model:
+    """A model from a NAME, or from a parameter FILE written by ``ebbtide fit`` (one-line errors)."""
+    from pathlib import Path
+
+    if ALIASES.get(spec, spec) in MODELS:
+        return make_model(spec, study)
+    path = Path(spec)
+    if not path.is_file():
+        raise ValueError(f"--model holds {spec!r}: neither a model name ({', '.join(MODEL_NAMES)}) "
+                         "nor a parameter file")
+    try:
+        text = path.read_text(encoding="utf-8")
+    except (OSError, UnicodeDecodeError) as exc:
+        raise ValueError(f"cannot read {spec}: {exc}") from exc
+    name, parameters = read_parameter_file(text, spec)
+    try:
+        return make_model(name, study, parameters)
+    except ValueError as exc:
+        raise ValueError(f"{spec}: {exc}") from exc

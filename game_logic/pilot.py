@@ -72,7 +72,8 @@ def play(
         degraded = np.array([s.regime is Regime.DEGRADED for s in states])
         threshold = np.array([np.nan if s.threshold is None else s.threshold for s in states])
         infos = [danger_info(study, s) for s in states]
-        signal_rows = [i for i, info in enumerate(infos) if info["kind"] == "signal"]
+        # The band is recomputed each round only for models that read it (it is costly).
+        signal_rows = [i for i, info in enumerate(infos) if info["kind"] == "signal" and model.reads_signal]
         paths = {i: list(states[i].stock_path) for i in signal_rows}
         # Other treatments say the same thing all block long: their arrays are built once.
         static = None if signal_rows else Danger.from_infos(infos)
