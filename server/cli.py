@@ -199,6 +199,31 @@ def power(study_file: str, model_spec: str, group_text: str, sims: int, seed: in
     click.echo(f"wrote {out / 'power.csv'}, " + ", ".join(figures))
 
 
+@main.command()
+@click.argument("export_dir", type=click.Path(file_okay=False))
+@click.option("--model", "model_name", type=click.Choice(["conditional", "logit", "threshold-averse"]),
+              required=True, help="The behaviour model to estimate (docs/behaviour-models.md).")
+@click.option("--out", "out_file", type=click.Path(dir_okay=False), required=True,
+              help="Parameter file to write (TOML), for pilot, rehearse, power and preview --model.")
+def fit(export_dir: str, model_name: str, out_file: str) -> None:
+    """Estimate a behaviour model from the decisions in EXPORT_DIR by maximum likelihood."""
+    from ebbtide.analysis.exports_reader import read_export
+    from ebbtide.analysis.fitting import fit_model
+    from ebbtide.game_logic.behaviour import parameter_file_text
+    from ebbtide.game_logic.errors import EbbtideError
+
+    try:
+        result = fit_model(model_name, read_export(export_dir))
+    except (EbbtideError, ValueError) as exc:
+        click.echo(f"fit refused, nothing written: {exc}", err=True)
+        sys.exit(2)
+    for line in result.summary():
+        click.echo(line)
+    text = parameter_file_text(model_name, {**result.fixed, **result.estimates}, **result.parameter_tables())
+    Path(out_file).write_text(text, encoding="utf-8")
+    click.echo(f"wrote {out_file}; use it with --model {out_file}")
+
+
 def _announce(app, host: str, db_path: Path, created: bool) -> Callable[[int], None]:
     from ebbtide.server.netaddr import reachable_host
 
