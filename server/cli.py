@@ -224,6 +224,45 @@ def fit(export_dir: str, model_name: str, out_file: str) -> None:
     click.echo(f"wrote {out_file}; use it with --model {out_file}")
 
 
+@main.command()
+@click.argument("study_file", type=click.Path(dir_okay=False))
+@click.option("--model", "model_specs", multiple=True, metavar="NAME|FILE",
+              help="Behaviour model (repeatable) [default: every model].")
+@click.option("--sessions", type=click.IntRange(10, 100_000), default=1000, show_default=True,
+              help="Simulated sessions per model.")
+@click.option("--seed", type=click.IntRange(0, 2**63 - 1), default=1, show_default=True,
+              help="Seed of every simulated draw.")
+def preview(study_file: str, model_specs: tuple[str, ...], sessions: int, seed: int) -> None:
+    """Cash to carry and length of the day for STUDY_FILE, from simulated sessions."""
+    from ebbtide.game_logic.behaviour import MODEL_NAMES
+    from ebbtide.game_logic.budget import cash_budget
+    from ebbtide.game_logic.design_review import expected_minutes
+
+    def cash(amount) -> str:
+        return format(amount.normalize(), "f")  # 560, not 560.0 or 5.6E+2
+
+    study = _load(study_file)
+    models = [_model(spec, study) for spec in (model_specs or MODEL_NAMES)]
+    currency = study.payment.currency
+    people = study.groups.count * study.seats
+    click.echo(f"{study.session.title}: {study.groups.count} groups x {study.seats} seats = {people} "
+               f"people; {sessions} simulated sessions per model, seed {seed}")
+    for model in models:
+        b = cash_budget(study, model, sessions=sessions, seed=seed)
+        click.echo(f"cash under {model.name}: {cash(b.expected)} {currency} expected, {cash(b.minimum)} "
+                   f"to {cash(b.maximum)}; bring {cash(b.high)} for {b.quantile:.0%} of sessions")
+        if b.minimum == b.maximum:
+            click.echo(f"  every session under {model.name}: {cash(b.minimum)} {currency}")
+        packing = ", ".join(f"{k} x {cash(v)}" for v, k in b.packing.items())
+        click.echo(f"  notes and coins ({b.quantile:.0%} of sessions, each value alone): {packing}")
+        click.echo(f"  day under {model.name}: median {np.median(b.minutes):.0f} minutes, "
+                   f"95 % within {np.quantile(b.minutes, 0.95):.0f}")
+    click.echo(f"duration: {expected_minutes(study):.0f} minutes if every round is played (setup, rounds, "
+               "talk pauses, debrief)")
+    click.echo("Simulated under assumed behaviour, not a forecast; payments are real money: carry a margin "
+               "and follow your institution's rules for cash.")
+
+
 def _announce(app, host: str, db_path: Path, created: bool) -> Callable[[int], None]:
     from ebbtide.server.netaddr import reachable_host
 
