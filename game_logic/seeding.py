@@ -28,7 +28,6 @@ def strategy_rng(seed: int) -> np.random.Generator:
 
 
 BEHAVIOUR_STREAM = 4
-SIMULATION_STREAM = 5
 
 
 def behaviour_rng(seed: int, group: int, block: int) -> np.random.Generator:
@@ -39,11 +38,3 @@ def behaviour_rng(seed: int, group: int, block: int) -> np.random.Generator:
     """
     return np.random.default_rng([seed, BEHAVIOUR_STREAM, group, block])
 
-
-def simulation_rng(seed: int, group: int) -> np.random.Generator:
-    """Generator of a power-analysis group's own round draws (threshold, flips, stops).
-
-    Live sessions and the pilot use ``round_rng`` per round; simulating hundreds of
-    thousands of groups draws a whole group's rounds from one generator instead.
-    """
-    return np.random.default_rng([seed, SIMULATION_STREAM, group])
