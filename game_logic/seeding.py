@@ -23,7 +23,7 @@ def round_rng(seed: int, group: int, block: int, round_number: int) -> np.random
 
 
 def strategy_rng(seed: int) -> np.random.Generator:
-    """Generator for simulated players' own noise (pilot and rehearsal bots)."""
+    """Generator of the rehearsal bots' thinking times (their choices use ``behaviour_rng``)."""
     return np.random.default_rng([seed, STRATEGY_STREAM])
 
 
