@@ -23,5 +23,18 @@ def round_rng(seed: int, group: int, block: int, round_number: int) -> np.random
 
 
 def strategy_rng(seed: int) -> np.random.Generator:
-    """Generator for simulated players' own noise (pilot and rehearsal bots)."""
+    """Generator of the rehearsal bots' thinking times (their choices use ``behaviour_rng``)."""
     return np.random.default_rng([seed, STRATEGY_STREAM])
+
+
+BEHAVIOUR_STREAM = 4
+
+
+def behaviour_rng(seed: int, group: int, block: int) -> np.random.Generator:
+    """Generator of one group's simulated players in one block.
+
+    Its first draws are the seats' uniforms, ``random((rounds, seats))`` in play
+    order; pilot, rehearsal bots and power analysis all read them this way.
+    """
+    return np.random.default_rng([seed, BEHAVIOUR_STREAM, group, block])
+

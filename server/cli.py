@@ -7,12 +7,28 @@ from collections.abc import Callable
 from pathlib import Path
 
 import click
+import numpy as np
 
+from ebbtide.game_logic.behaviour import MODEL_NAMES
 from ebbtide.game_logic.errors import EbbtideError, StudyError
 from ebbtide.game_logic.study import Study, load_study
 from ebbtide.server.resources import example_study
 
 DEMO_STUDY_FILE = "brackwater-demo.toml"
+
+_MODEL_FILE = click.option(
+    "--model", "model_spec", default=None, metavar="NAME|FILE",
+    help="Behaviour model by name, or a parameter file written by `ebbtide fit` (overrides --strategy).")
+
+
+def _model(spec: str, study: Study):
+    from ebbtide.game_logic.behaviour import load_model
+
+    try:
+        return load_model(spec, study)
+    except ValueError as exc:
+        click.echo(str(exc), err=True)
+        sys.exit(2)
 
 
 def _load(path: str) -> Study:
@@ -68,18 +84,23 @@ def check(study_file: str) -> None:
               help="Simulated groups to play through the design.")
 @click.option("--seed", type=click.IntRange(0, 2**63 - 1), default=1, show_default=True,
               help="Seed of every random draw (thresholds, flips, stops, player noise).")
-@click.option("--strategy", type=click.Choice(["max", "sustainable", "conditional"]),
-              default="conditional", show_default=True, help="How the simulated players harvest.")
+@click.option("--strategy", type=click.Choice(["max", *MODEL_NAMES]),
+              default="conditional", show_default=True,
+              help="Behaviour model of the simulated players (docs/behaviour-models.md).")
+@_MODEL_FILE
 @click.option("--out", "out_dir", type=click.Path(file_okay=False), required=True,
               help="Folder for decisions.csv, rounds.csv, seats.csv and datapackage.json.")
-def pilot(study_file: str, groups: int, seed: int, strategy: str, out_dir: str) -> None:
+def pilot(study_file: str, groups: int, seed: int, strategy: str, model_spec: str | None,
+          out_dir: str) -> None:
     """Simulate groups offline through STUDY_FILE and write the export tables."""
     from ebbtide.exports.build import tables_from_outcomes
     from ebbtide.exports.writer import write_export
     from ebbtide.game_logic.pilot import run_pilot
 
     study = _load(study_file)
-    run = run_pilot(study, groups=groups, seed=seed, strategy=strategy)
+    model = _model(model_spec or strategy, study)
+    strategy = model.name
+    run = run_pilot(study, groups=groups, seed=seed, strategy=model)
     session_id = f"pilot-{study.session.id}-{strategy}-s{seed}"
     tables = tables_from_outcomes(
         study, session_id, run.outcomes, lambda o: ["pilot"] * len(o.asked), groups=groups
@@ -130,6 +151,130 @@ def report(folder: str, out_file: str, seed: int) -> None:
         click.echo(f"report not written: {exc}", err=True)
         sys.exit(2)
     click.echo(f"wrote {written.html} and {len(written.tables)} table(s) as CSV next to it")
+
+
+@main.command()
+@click.argument("study_file", type=click.Path(dir_okay=False))
+@click.option("--model", "model_spec", default="threshold-averse", show_default=True, metavar="NAME|FILE",
+              help="Behaviour model by name, or a parameter file written by `ebbtide fit`.")
+@click.option("--groups", "group_text", default="4:40", show_default=True,
+              help="Numbers of groups to try: START:STOP, START:STOP:STEP or a list like 6,12,18.")
+@click.option("--sims", type=click.IntRange(10, 1_000_000), default=1000, show_default=True,
+              help="Simulated studies per number of groups.")
+@click.option("--seed", type=click.IntRange(0, 2**63 - 1), default=1, show_default=True,
+              help="Seed of every simulated draw.")
+@click.option("--outcome", type=click.Choice(["group_harvest_per_round", "share_degraded", "crossed",
+                                              "final_stock"]),
+              default="group_harvest_per_round", show_default=True, help="The group-level outcome tested.")
+@click.option("--level", type=click.FloatRange(0.001, 0.5), default=0.05, show_default=True,
+              help="Significance level of each planned test.")
+@click.option("--jobs", type=click.IntRange(1, 64), default=1, show_default=True,
+              help="Processes to simulate with.")
+@click.option("--out", "out_dir", type=click.Path(file_okay=False), required=True,
+              help="Folder for power.csv, power-curve.png and power-curve.svg.")
+def power(study_file: str, model_spec: str, group_text: str, sims: int, seed: int, outcome: str,
+          level: float, jobs: int, out_dir: str) -> None:
+    """Power by simulation: how many groups the planned comparisons of STUDY_FILE need."""
+    import csv
+
+    from ebbtide.analysis.power import draw_power_curve, parse_group_counts, study_power
+
+    study = _load(study_file)
+    model = _model(model_spec, study)
+    try:
+        counts = parse_group_counts(group_text)
+        curve, hypotheses = study_power(study, model, counts, sims, seed=seed, outcome=outcome,
+                                        level=level, jobs=jobs)
+    except ValueError as exc:
+        click.echo(f"power not estimated: {exc}", err=True)
+        sys.exit(2)
+    out = Path(out_dir)
+    out.mkdir(parents=True, exist_ok=True)
+    with open(out / "power.csv", "w", newline="", encoding="utf-8") as handle:
+        writer = csv.DictWriter(handle, fieldnames=list(curve.rows()[0]))
+        writer.writeheader()
+        writer.writerows(curve.rows())
+    figures = draw_power_curve(curve, str(out / "power-curve"))
+    click.echo(f"power by simulation: model {model.name} {model.parameters or ''}, {sims} studies per "
+               f"number of groups, seed {seed}; each test at level {level:g}, two-sided")
+    se = curve.standard_error
+    for j, h in enumerate(hypotheses):
+        click.echo(f"{h.label}")
+        click.echo("  groups  power  (Monte Carlo s.e.)")
+        for i, n in enumerate(curve.groups):
+            p = curve.power[i, j]
+            shown = "  too few groups in an arm" if np.isnan(p) else f"  {p:5.3f}  ({se[i, j]:.3f})"
+            click.echo(f"  {n:6d}{shown}")
+    for h, n in zip(hypotheses, curve.groups_for(0.8), strict=True):
+        reach = f"{n} groups" if n else f"not reached with {curve.groups[-1]} groups"
+        click.echo(f"80 % power: {reach} for {h.label}")
+    click.echo("A simulation under an assumed behaviour model, not a forecast: fit the model to a pilot "
+               "session (ebbtide fit) before trusting these numbers.")
+    click.echo(f"wrote {out / 'power.csv'}, " + ", ".join(figures))
+
+
+@main.command()
+@click.argument("export_dir", type=click.Path(file_okay=False))
+@click.option("--model", "model_name", type=click.Choice(["conditional", "logit", "threshold-averse"]),
+              required=True, help="The behaviour model to estimate (docs/behaviour-models.md).")
+@click.option("--out", "out_file", type=click.Path(dir_okay=False), required=True,
+              help="Parameter file to write (TOML), for pilot, rehearse, power and preview --model.")
+def fit(export_dir: str, model_name: str, out_file: str) -> None:
+    """Estimate a behaviour model from the decisions in EXPORT_DIR by maximum likelihood."""
+    from ebbtide.analysis.exports_reader import read_export
+    from ebbtide.analysis.fitting import fit_model
+    from ebbtide.game_logic.behaviour import parameter_file_text
+    from ebbtide.game_logic.errors import EbbtideError
+
+    try:
+        result = fit_model(model_name, read_export(export_dir))
+    except (EbbtideError, ValueError) as exc:
+        click.echo(f"fit refused, nothing written: {exc}", err=True)
+        sys.exit(2)
+    for line in result.summary():
+        click.echo(line)
+    text = parameter_file_text(model_name, {**result.fixed, **result.estimates}, **result.parameter_tables())
+    Path(out_file).write_text(text, encoding="utf-8")
+    click.echo(f"wrote {out_file}; use it with --model {out_file}")
+
+
+@main.command()
+@click.argument("study_file", type=click.Path(dir_okay=False))
+@click.option("--model", "model_specs", multiple=True, metavar="NAME|FILE",
+              help="Behaviour model (repeatable) [default: every model].")
+@click.option("--sessions", type=click.IntRange(10, 100_000), default=1000, show_default=True,
+              help="Simulated sessions per model.")
+@click.option("--seed", type=click.IntRange(0, 2**63 - 1), default=1, show_default=True,
+              help="Seed of every simulated draw.")
+def preview(study_file: str, model_specs: tuple[str, ...], sessions: int, seed: int) -> None:
+    """Cash to carry and length of the day for STUDY_FILE, from simulated sessions."""
+    from ebbtide.game_logic.behaviour import MODEL_NAMES
+    from ebbtide.game_logic.budget import cash_budget
+    from ebbtide.game_logic.design_review import expected_minutes
+
+    def cash(amount) -> str:
+        return format(amount.normalize(), "f")  # 560, not 560.0 or 5.6E+2
+
+    study = _load(study_file)
+    models = [_model(spec, study) for spec in (model_specs or MODEL_NAMES)]
+    currency = study.payment.currency
+    people = study.groups.count * study.seats
+    click.echo(f"{study.session.title}: {study.groups.count} groups x {study.seats} seats = {people} "
+               f"people; {sessions} simulated sessions per model, seed {seed}")
+    for model in models:
+        b = cash_budget(study, model, sessions=sessions, seed=seed)
+        click.echo(f"cash under {model.name}: {cash(b.expected)} {currency} expected, {cash(b.minimum)} "
+                   f"to {cash(b.maximum)}; bring {cash(b.high)} for {b.quantile:.0%} of sessions")
+        if b.minimum == b.maximum:
+            click.echo(f"  every session under {model.name}: {cash(b.minimum)} {currency}")
+        packing = ", ".join(f"{k} x {cash(v)}" for v, k in b.packing.items())
+        click.echo(f"  notes and coins ({b.quantile:.0%} of sessions, each value alone): {packing}")
+        click.echo(f"  day under {model.name}: median {np.median(b.minutes):.0f} minutes, "
+                   f"95 % within {np.quantile(b.minutes, 0.95):.0f}")
+    click.echo(f"duration: {expected_minutes(study):.0f} minutes if every round is played (setup, rounds, "
+               "talk pauses, debrief)")
+    click.echo("Simulated under assumed behaviour, not a forecast; payments are real money: carry a margin "
+               "and follow your institution's rules for cash.")
 
 
 # What ``serve`` says it did on start-up, by ``Opening.how`` (server/registry.py).
@@ -315,16 +460,18 @@ def export(db_path: str, out_dir: str, stata: bool) -> None:
 @main.command()
 @click.argument("db_path", type=click.Path(exists=True, dir_okay=False))
 @click.option("--url", required=True, help="Address of the running session, e.g. http://127.0.0.1:8750.")
-@click.option("--strategy", type=click.Choice(["max", "sustainable", "conditional"]),
-              default="conditional", show_default=True, help="How the bots harvest.")
+@click.option("--strategy", type=click.Choice(["max", *MODEL_NAMES]),
+              default="conditional", show_default=True,
+              help="Behaviour model of the bots (docs/behaviour-models.md).")
 @click.option("--groups", "group_codes", default="",
               help="Comma-separated group codes the bots play (e.g. G01,G02) [default: every group].")
 @click.option("--seed", type=click.IntRange(0, 2**63 - 1), default=1, show_default=True,
               help="Seed of the bots' own noise and thinking times.")
 @click.option("--minutes", type=click.FloatRange(0.1, 600), default=30, show_default=True,
               help="Stop after this long even if the session has not ended.")
+@_MODEL_FILE
 def rehearse(db_path: str, url: str, strategy: str, group_codes: str, seed: int,
-             minutes: float) -> None:
+             minutes: float, model_spec: str | None) -> None:
     """Rehearsal: bots play seats of the session in DB_PATH served at --url.
 
     Pace the session from the console as usual; bots answer every round they are shown.
@@ -342,6 +489,7 @@ def rehearse(db_path: str, url: str, strategy: str, group_codes: str, seed: int,
         record = records[-1]
         keys = store.seat_keys(record.session_id)
     study = parse_study(record.study_text)
+    model = _model(model_spec or strategy, study)
     wanted = {c.strip().upper() for c in group_codes.split(",") if c.strip()}
     known = {group_code(k.group) for k in keys}
     if wanted - known:
@@ -351,7 +499,7 @@ def rehearse(db_path: str, url: str, strategy: str, group_codes: str, seed: int,
     click.echo(f"rehearsal: {len(chosen)} bot(s) on {record.session_id} at {url}; "
                "start and pace the session from the console")
     # The bots' credential comes from the session's key in this database: no phone has it.
-    result = play(url, study, chosen, record.secret_key, strategy=strategy, seed=seed,
+    result = play(url, study, chosen, record.secret_key, strategy=model, seed=seed,
                   max_seconds=minutes * 60)
     click.echo(f"{result.acknowledged} decision(s) acknowledged, {result.refused} refused, "
                f"in {result.seconds:.0f} s; session {'ended' if result.finished else 'still running'}")

@@ -3,10 +3,10 @@
 Each bot is an ordinary Socket.IO client that presents a seat secret, exactly
 as a phone does, plus the session's rehearsal credential (``agent = "bot"``, so its
 decisions are exported with source ``bot``; a phone cannot claim that without the
-credential, which only the database holds), and answers every open round it is
-shown using a pilot strategy read from its own participant view. A researcher
-uses it to try the room's router and laptop before the trip; tests use it to
-play whole sessions.
+credential, which only the database holds), and answers every open round it is shown with a behaviour model
+(``game_logic.behaviour``) read from its own participant view: the same code and
+the same per-group draws as the pilot. A researcher uses it to try the room's router
+and laptop before the trip; tests use it to play whole sessions.
 """
 
 from __future__ import annotations
@@ -18,9 +18,8 @@ from dataclasses import dataclass, field
 import numpy as np
 import socketio
 
-from ebbtide.game_logic.benchmarks import equal_share_of_sustainable_yield
+from ebbtide.game_logic.behaviour import Model, choose_from_view, make_model
 from ebbtide.game_logic.seeding import strategy_rng
-from ebbtide.game_logic.strategies import choose_from_view
 from ebbtide.game_logic.study import Study
 
 from .console.access import rehearsal_token
@@ -29,12 +28,17 @@ from .store import SeatKey
 
 @dataclass
 class Bot:
-    """One seat played by a strategy; remembers what it sent and what came back."""
+    """One seat played by a behaviour model; remembers what it sent and what came back.
+
+    ``rng`` paces the bot (thinking time); its choices come from the model and the
+    seed tree, keyed by its group.
+    """
 
     key: SeatKey
     token: str  # console/access.py rehearsal_token: derived from the session's key in the database
-    strategy: str
-    share: int
+    model: Model
+    study: Study
+    seed: int
     rng: np.random.Generator
     think_seconds: tuple[float, float]
     client: socketio.Client = field(default_factory=lambda: socketio.Client(reconnection=True))
@@ -72,7 +76,7 @@ class Bot:
             if not open_round or self._asking == where:
                 return
             self._asking = where
-            harvest = choose_from_view(self.strategy, view, self.share, self.rng)
+            harvest = choose_from_view(self.model, self.study, view, self.seed, self.key.group)
             pause = float(self.rng.uniform(*self.think_seconds))
         threading.Timer(pause, self._send, args=(where, harvest)).start()
 
@@ -122,7 +126,7 @@ def rehearse(
     study: Study,
     keys: list[SeatKey],
     session_secret: str,
-    strategy: str = "conditional",
+    strategy: Model | str = "conditional",
     seed: int = 1,
     think_seconds: tuple[float, float] = (0.2, 1.5),
     max_seconds: float = 600.0,
@@ -130,14 +134,13 @@ def rehearse(
     """Connect one bot per seat key and play until the session ends or time runs out.
 
     The facilitator still paces the session from the console (start, open
-    blocks, end): bots only answer the rounds they are shown. ``session_secret`` is the
-    session's key as stored in its database (``SessionRecord.secret_key``).
+    blocks, end): bots only answer the rounds they are shown.
     """
+    model = make_model(strategy, study) if isinstance(strategy, str) else strategy
     token = rehearsal_token(session_secret)
-    rng = strategy_rng(seed)
-    share = equal_share_of_sustainable_yield(study)
+    pace = strategy_rng(seed)
     bots = [
-        Bot(key, token, strategy, share, np.random.default_rng(rng.integers(2**63)), think_seconds)
+        Bot(key, token, model, study, seed, np.random.default_rng(pace.integers(2**63)), think_seconds)
         for key in keys
     ]
     started = time.monotonic()

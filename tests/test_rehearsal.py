@@ -9,22 +9,25 @@ import pytest
 import requests
 import socketio
 from conftest import WAIT_SECONDS, connect_console, connect_phone, wait_until
+from helpers_study import make_study
 
-from ebbtide.game_logic.strategies import choose_from_view
+from ebbtide.game_logic.behaviour import choose_from_view, make_model
 from ebbtide.server.console.access import rehearsal_token
 from ebbtide.server.rehearsal import rehearse
 
-VIEW = {"max_harvest": 10, "seats": 3}
+VIEW = {"block": 1, "round": 2, "seat": 1, "stock": 70, "danger": {"kind": "none"}}
 
 
-def test_bot_choices_follow_the_named_strategy():
-    rng = np.random.default_rng(0)
-    assert choose_from_view("max", VIEW, 2, rng) == 10
-    assert choose_from_view("sustainable", VIEW, 4, rng) == 4
+def test_bot_choices_follow_the_named_model_and_its_noise():
+    study = make_study(seats=3, max_harvest=10, rounds=10)
+    assert choose_from_view(make_model("max", study), study, VIEW, 0, 0) == 10
+    # Equal share of the sustainable yield: MSY r K / 4 = 12.5 (Schaefer 1954), floor(12.5 / 3) = 4.
+    assert choose_from_view(make_model("sustainable", study), study, VIEW, 0, 0) == 4
     after = dict(VIEW, last_round={"group_total": 17, "taken": 5})
-    # Others took (17 - 5) / 2 = 6 on average; noise has sd 1, so within a few units.
-    picks = [choose_from_view("conditional", after, 2, rng) for _ in range(200)]
-    assert 5.5 < np.mean(picks) < 6.5 and min(picks) >= 0 and max(picks) <= 10
+    # Others took (17 - 5) / 2 = 6 on average; each group has its own draws (noise sd 2 here).
+    model = make_model("conditional", study, {"noise": 2.0})
+    picks = [choose_from_view(model, study, after, 0, g) for g in range(300)]
+    assert 5.6 < np.mean(picks) < 6.4 and 1.5 < np.std(picks) < 2.5
 
 
 def test_bots_play_every_round_of_a_live_session(start_server, demo_study):
