@@ -1,7 +1,8 @@
 """Cash to carry and length of the day, from simulated sessions of a study.
 
 Each simulated session plays the study's groups (``pilot.play``) with a behaviour
-model; every seat is paid by the payment code (``money.earnings``) exactly as the payment sheet pays it. The day lasts the setup,
+model; every seat is paid by the payment code (``money.earnings``) exactly as the
+payment sheet pays it. The day lasts the setup,
 every round played at the study's pace (groups play side by side, so a block lasts
 as long as its longest group), the talk pauses and the debrief.
 """
