@@ -25,6 +25,7 @@ from pydantic import BaseModel, ValidationError
 from ebbtide.game_logic.errors import Refused
 
 from .app import socketio
+from .console.refresh import refresh_for
 from .messages import ConsoleAuth, PhoneAuth, from_validation_error
 from .phone.view import remember_language
 from .registry import LiveSession, Registry
@@ -78,6 +79,11 @@ def send_everyone(live: LiveSession) -> None:
 
 
 def send_console(live: LiveSession) -> None:
+    """Refresh the console soon: coalesced (console/refresh.py), so a burst of decisions is one state."""
+    refresh_for(current_app, live.session_id, send_console_now).request()
+
+
+def send_console_now(live: LiveSession) -> None:
     snapshot = live.console_snapshot(registry().online())
     socketio.emit("console_state", snapshot, to=console_room(live.session_id))
 
