@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import os
 from pathlib import Path
 from typing import Any
 
@@ -10,7 +11,7 @@ from flask_babel import Babel, get_locale
 from flask_socketio import SocketIO
 
 from .resources import data_folder
-from .serving import async_mode
+from .serving import async_mode, run_blocking
 
 MAX_MESSAGE_BYTES = 16_384  # no legitimate message comes near; a flood is cut at the edge
 
@@ -26,7 +27,8 @@ def create_app(config: dict[str, Any] | None = None) -> Flask:
     seat cards; defaults to the address the console was opened at),
     ``EBBTIDE_FLOOD_EVENTS`` (messages a phone may send per 10 s, default 20; the
     console gets three times as many), ``EBBTIDE_ASYNC_MODE`` (gevent | threading; default:
-    gevent when the process is monkey-patched for it, else threading).
+    gevent when the process is monkey-patched for it, else threading), ``EBBTIDE_GROUP_COMMIT``
+    (default True; False commits every change on its own, for measurements).
     """
     from . import sockets, web  # noqa: F401 - sockets registers its handlers on import
     from .console import events as console_events  # noqa: F401 - registers handlers
@@ -53,7 +55,9 @@ def create_app(config: dict[str, Any] | None = None) -> Flask:
         MAX_CONTENT_LENGTH=MAX_MESSAGE_BYTES,
     )
     app.config.update(config or {})
-    store = Store(app.config["EBBTIDE_DB"])
+    # Group commit unless EBBTIDE_GROUP_COMMIT=0 (one fsync per decision, kept to measure against).
+    group_commit = app.config.get("EBBTIDE_GROUP_COMMIT", os.environ.get("EBBTIDE_GROUP_COMMIT", "1") != "0")
+    store = Store(app.config["EBBTIDE_DB"], group_commit=group_commit, offload=run_blocking)
     registry = Registry(store)
     app.extensions["ebbtide"] = registry
     study = app.config.get("EBBTIDE_STUDY")

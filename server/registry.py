@@ -85,7 +85,7 @@ class LiveSession:
         All or nothing: one refusal refuses the lot. The events must not depend on
         each other's checks (paper slips of one round: distinct seats).
         """
-        with self._lock:
+        with self.store.writing(), self._lock:  # a commit starting meanwhile waits for this change
             fresh = []
             for kind, body, decision_id in requests:
                 if decision_id is not None and decision_id in self.state.receipts:
@@ -97,25 +97,40 @@ class LiveSession:
                 fresh.append((kind, body, decision_id))
             if not fresh:
                 decision_id = requests[-1][2]
-                return Change(self.state.seq, False, receipt=self.state.receipts.get(decision_id))
-            resolved: list[RoundOutcome] = []
-            try:
-                with self.store.atomic(self.session_id) as writer:
-                    for kind, body, decision_id in fresh:
-                        event, _ = writer.append(kind, body, decision_id)
-                        done = self.state.apply(kind, body, decision_id, event.id)
-                        for outcome in done:
-                            audit, _ = writer.append("round_resolved", _audit(outcome))
-                            self.state.seq = audit.id
-                        resolved.extend(done)
-            except BaseException:
-                # The transaction rolled back: rebuild the state from what is really stored.
+                change = Change(self.state.seq, False, receipt=self.state.receipts.get(decision_id))
+                ticket = None  # a repeat: its first copy may still be on its way to disk
+            else:
+                change, ticket = self._write(fresh, requests)
+        try:
+            # Outside the session's lock: changes arriving meanwhile share the next commit's fsync.
+            self.store.make_durable(ticket)
+        except BaseException:
+            with self._lock:  # the commit failed: rebuild the state from what is really stored
                 self.state = replay(self.study, self.record.seed, self.session_id,
                                     self.store.events(self.session_id))
-                raise
-            last_id = requests[-1][2]
-            receipt = self.state.receipts.get(last_id) if last_id else None
-            return Change(self.state.seq, True, tuple(resolved), receipt)
+            raise
+        return change
+
+    def _write(self, fresh: list, requests: list) -> tuple[Change, int]:
+        """Store (not yet durable) and apply checked events; the caller holds the lock."""
+        resolved: list[RoundOutcome] = []
+        try:
+            with self.store.pending(self.session_id) as writer:
+                for kind, body, decision_id in fresh:
+                    event, _ = writer.append(kind, body, decision_id)
+                    done = self.state.apply(kind, body, decision_id, event.id)
+                    for outcome in done:
+                        audit, _ = writer.append("round_resolved", _audit(outcome))
+                        self.state.seq = audit.id
+                    resolved.extend(done)
+        except BaseException:
+            # The change rolled back (its savepoint): rebuild the state from what is really stored.
+            self.state = replay(self.study, self.record.seed, self.session_id,
+                                self.store.events(self.session_id))
+            raise
+        last_id = requests[-1][2]
+        receipt = self.state.receipts.get(last_id) if last_id else None
+        return Change(self.state.seq, True, tuple(resolved), receipt), writer.ticket
 
     def seat_snapshot(self, group: int, seat: int) -> dict[str, Any]:
         with self._lock:
