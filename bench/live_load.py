@@ -27,6 +27,7 @@ monkey.patch_all()
 
 import argparse  # noqa: E402
 import json  # noqa: E402
+import logging  # noqa: E402
 import os  # noqa: E402
 import re  # noqa: E402
 import resource  # noqa: E402
@@ -116,10 +117,11 @@ def peak_rss_mb(pid: int) -> float:
     return float("nan")
 
 
-def start(cmd: list[str], kind: str, pattern: str) -> tuple[subprocess.Popen, str]:
-    env = {**os.environ, "EBBTIDE_SERVER": kind, "PYTHONUNBUFFERED": "1"}
-    proc = subprocess.Popen(cmd, cwd=ROOT, stdout=subprocess.PIPE, stderr=subprocess.DEVNULL,
-                            text=True, env=env)
+def start(cmd: list[str], kind: str, pattern: str, commit: str = "group") -> tuple[subprocess.Popen, str]:
+    env = {**os.environ, "EBBTIDE_SERVER": kind, "PYTHONUNBUFFERED": "1",
+           "EBBTIDE_GROUP_COMMIT": "1" if commit == "group" else "0"}
+    errors = open(os.environ.get("BENCH_SERVER_LOG", os.devnull), "a")  # noqa: SIM115 - lives with proc
+    proc = subprocess.Popen(cmd, cwd=ROOT, stdout=subprocess.PIPE, stderr=errors, text=True, env=env)
     deadline = time.monotonic() + 60
     while time.monotonic() < deadline:
         line = proc.stdout.readline()
@@ -163,7 +165,20 @@ def connect_all(phones: list[Phone], url: str, auth_of) -> float:
     return time.perf_counter() - began
 
 
-def play(phones: list[Phone], rounds: int, server_pid: int) -> dict:
+PROFILE_DIR: Path | None = None  # --profile: py-spy samples the server while it plays
+
+
+def profiler(server_pid: int, name: str) -> subprocess.Popen | None:
+    if PROFILE_DIR is None:
+        return None
+    PROFILE_DIR.mkdir(parents=True, exist_ok=True)
+    return subprocess.Popen(["py-spy", "record", "--pid", str(server_pid), "--format", "raw", "--rate", "200",
+                             "--output", str(PROFILE_DIR / f"{name}.txt")],
+                            stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
+
+
+def play(phones: list[Phone], rounds: int, server_pid: int, name: str = "") -> dict:
+    sampling = profiler(server_pid, name)
     acks: list[float] = []
     refused: list[dict] = []
 
@@ -178,6 +193,7 @@ def play(phones: list[Phone], rounds: int, server_pid: int) -> dict:
 
     round_results: list[float] = []
     cpu_before = cpu_seconds(server_pid)
+    own_before = resource.getrusage(resource.RUSAGE_SELF)
     began = time.perf_counter()
     for r in range(1, rounds + 1):
         jobs = [gevent.spawn(decide, phone, r) for phone in phones]  # every phone at once
@@ -195,20 +211,32 @@ def play(phones: list[Phone], rounds: int, server_pid: int) -> dict:
             last_sent = max(p.sent[r] for p in members)
             round_results.append(max(p.results[r] for p in members) - last_sent)
         gevent.sleep(0.3)  # let the console refresh settle before the next round
+    if sampling is not None:
+        sampling.send_signal(2)  # py-spy writes its file on SIGINT
+        sampling.wait(timeout=60)
     return {
         "ack": summary(acks), "round_result": summary(round_results), "refused": len(refused),
         "decisions_acked": len(acks) - len(refused), "play_seconds": time.perf_counter() - began,
         "server_cpu_seconds": cpu_seconds(server_pid) - cpu_before,
+        # The phones' own process shares the 2 cores: when it is busy, latencies include its queue.
+        "phones_cpu_seconds": cpu_used(own_before),
     }
 
 
-def run_ebbtide(n: int, rounds: int, kind: str, tmp: Path) -> dict:
+def cpu_used(before) -> float:
+    now = resource.getrusage(resource.RUSAGE_SELF)
+    return (now.ru_utime - before.ru_utime) + (now.ru_stime - before.ru_stime)
+
+
+def run_ebbtide(n: int, rounds: int, kind: str, tmp: Path, commit: str) -> dict:
     study = tmp / "bench.toml"
-    study.write_text(study_text(n // SEATS, rounds), encoding="utf-8")
+    # One round more than played: the measured rounds are ordinary ones, not the session's end
+    # (which sends every phone its final screen at once).
+    study.write_text(study_text(n // SEATS, rounds + 1), encoding="utf-8")
     db = tmp / "ebbtide.db"
     proc, url = start([sys.executable, "-m", "ebbtide.server.cli", "serve", str(study), "--db", str(db),
                        "--host", "127.0.0.1", "--port", "0", "--pin", "9999", "--seed", "3"],
-                      kind, r"console:\s+(http://[\d.:]+)/console")
+                      kind, r"console:\s+(http://[\d.:]+)/console", commit)
     try:
         keys = sqlite3.connect(db).execute(
             "SELECT group_index, seat_index, secret FROM seat_keys ORDER BY group_index, seat_index"
@@ -237,7 +265,7 @@ def run_ebbtide(n: int, rounds: int, kind: str, tmp: Path) -> dict:
                         headers={"Cookie": f"session={http.cookies['session']}"})
         console.call("console_start", {}, timeout=WAIT)
         before = len(console_states)
-        figures = play(phones, rounds, proc.pid)
+        figures = play(phones, rounds, proc.pid, f"ebbtide-{kind}-{commit}-{n}")
         figures["console_updates"] = len(console_states) - before
         figures["connect_seconds"] = connect_s
         for client in [*(p.client for p in phones), console]:
@@ -253,7 +281,7 @@ def run_ebbtide(n: int, rounds: int, kind: str, tmp: Path) -> dict:
     return figures
 
 
-def run_bare(n: int, rounds: int, kind: str, tmp: Path) -> dict:
+def run_bare(n: int, rounds: int, kind: str, tmp: Path, commit: str) -> dict:
     db = tmp / "bare.db"
     proc, url = start([sys.executable, str(ROOT / "bench" / "bare_stack.py"), "--db", str(db),
                        "--seats", str(SEATS)], kind, r"listening on (http://[\d.:]+)")
@@ -269,7 +297,7 @@ def run_bare(n: int, rounds: int, kind: str, tmp: Path) -> dict:
                 phone.client.on("result", on_result)
                 phones.append(phone)
         connect_s = connect_all(phones, url, lambda p: {"group": p.group, "seat": p.seat})
-        figures = play(phones, rounds, proc.pid)
+        figures = play(phones, rounds, proc.pid, f"bare-{kind}-{n}")
         figures["connect_seconds"] = connect_s
         for phone in phones:
             phone.client.disconnect()
@@ -300,19 +328,28 @@ def main() -> None:
     parser.add_argument("--repeats", type=int, default=3)
     parser.add_argument("--kinds", nargs="+", default=["gevent"], choices=["gevent", "threading"])
     parser.add_argument("--targets", nargs="+", default=["ebbtide", "bare"], choices=["ebbtide", "bare"])
+    parser.add_argument("--commits", nargs="+", default=["group"], choices=["group", "single"],
+                        help="Ebbtide's commits: group commit, or one fsync per decision")
+    parser.add_argument("--profile", type=Path, default=None,
+                        help="folder for py-spy samples of each server while it plays")
     parser.add_argument("--json", type=Path, default=None, help="append one JSON line per run here")
     args = parser.parse_args()
+    global PROFILE_DIR
+    PROFILE_DIR = args.profile
+    logging.getLogger("engineio.client").setLevel(logging.CRITICAL)  # one line per phone at disconnect
     limit = raise_open_file_limit(4 * max(args.phones) + 256)
     print(f"open-file limit {limit}; {os.cpu_count()} cores", flush=True)
     runners = {"ebbtide": run_ebbtide, "bare": run_bare}
     for n in args.phones:
         for repeat in range(1, args.repeats + 1):
             for kind in args.kinds:
-                for target in args.targets:  # interleaved, so a busy minute hits both alike
+                runs = [(t, c) for t in args.targets
+                        for c in (args.commits if t == "ebbtide" else ["single"])]
+                for target, commit in runs:  # interleaved, so a busy minute hits every set-up alike
                     load = os.getloadavg()
                     with tempfile.TemporaryDirectory() as tmp:
-                        figures = runners[target](n, args.rounds, kind, Path(tmp))
-                    record = {"phones": n, "repeat": repeat, "kind": kind, "target": target,
+                        figures = runners[target](n, args.rounds, kind, Path(tmp), commit)
+                    record = {"phones": n, "repeat": repeat, "kind": kind, "target": target, "commit": commit,
                               "rounds": args.rounds, "loadavg_before": load, **figures}
                     print(json.dumps(record), flush=True)
                     if args.json:

@@ -74,6 +74,12 @@ def _gevent_server(app, host: str, port: int):
             self.socket.setsockopt(socket.IPPROTO_TCP, socket.TCP_NODELAY, 1)
             super().handle()
 
+        def run_application(self):
+            super().run_application()
+            if self.environ.get("HTTP_UPGRADE", "").lower() == "websocket":
+                # The websocket is over: close, instead of reading its last frames as HTTP.
+                self.close_connection = True
+
     class GeventServer(WSGIServer):
         """gevent's server with the few methods the CLI and the tests call on Werkzeug's."""
 
