@@ -45,55 +45,12 @@ import gevent.pool  # noqa: E402
 import requests  # noqa: E402
 import socketio  # noqa: E402
 
+sys.path.insert(0, str(Path(__file__).resolve().parent.parent))  # run as a script from a clone
+from bench.load_study import SEATS, study_text  # noqa: E402
+
 ROOT = Path(__file__).resolve().parent.parent
-SEATS = 5
 CONNECTS_AT_ONCE = 50  # phones joining together; a hall fills over minutes, not in one instant
 WAIT = 120.0
-
-
-def study_text(groups: int, rounds: int) -> str:
-    """An invented bench lagoon: one block, groups of five, small harvests so the stock lasts."""
-    return f"""
-[session]
-id = "bench-lagoon"
-title = "Bench lagoon (invented, for load tests)"
-place = "nowhere"
-language = "en"
-languages = ["en"]
-
-[groups]
-count = {groups}
-seats_per_group = {SEATS}
-
-[resource]
-unit = "baskets"
-capacity = 100
-initial_stock = 90
-max_harvest = 4
-
-[resource.growth]
-law = "logistic"
-r = 0.5
-
-[threshold]
-rule = "fixed"
-value = 20
-recovery_gap = 10
-
-[end]
-rule = "fixed"
-
-[[blocks]]
-name = "only"
-treatment = "none"
-rounds = {rounds}
-
-[payment]
-points_per_unit = 1
-currency = "marks"
-exchange_rate = 1
-show_up_fee = 10
-"""
 
 
 def raise_open_file_limit(wanted: int) -> int:
