@@ -34,8 +34,12 @@ def prepare_process(argv: list[str]) -> None:
     """Monkey-patch for gevent when this process is going to serve; do nothing otherwise."""
     command = next((arg for arg in argv[1:] if not arg.startswith("-")), None)
     if command in SERVING_COMMANDS and chosen_server() == "gevent":
-        from gevent import monkey
-
+        try:
+            from gevent import monkey
+        except ImportError:  # a declared dependency, but a half-finished install still serves
+            print("gevent is not installed: serving with threads (pip install gevent for the "
+                  "production server)", file=sys.stderr)
+            return
         monkey.patch_all()
 
 
