@@ -108,7 +108,7 @@ def _check_label_languages(where: str, label: ParticipantLabel | None, offered: 
 class GroupsSpec(_Frozen):
     """How many groups play at once and how many seats each has."""
 
-    count: Annotated[int, Field(ge=1, le=20)]
+    count: Annotated[int, Field(ge=1, le=200)]
     seats_per_group: Annotated[int, Field(ge=2, le=12)]
 
 

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import os
 from pathlib import Path
 from typing import Any
 
@@ -9,13 +10,10 @@ from flask import Flask, request
 from flask_babel import Babel, get_locale
 from flask_socketio import SocketIO
 
+from .guard import GuardedWSGI
 from .resources import data_folder
-from .serving import GuardedWSGI
+from .serving import async_mode, run_blocking
 
-# Measured in bench/server_phones.py (docs/benchmarks-server.md): threads with
-# simple-websocket serve 40 phones on loopback with room to spare, and need no
-# monkey-patching or extra server.
-ASYNC_MODE = "threading"
 MAX_MESSAGE_BYTES = 16_384  # no legitimate message comes near; a flood is cut at the edge
 
 socketio = SocketIO()
@@ -31,7 +29,9 @@ def create_app(config: dict[str, Any] | None = None) -> Flask:
     ``EBBTIDE_SEED``, ``EBBTIDE_PIN``, ``EBBTIDE_PUBLIC_URL`` (the address printed on
     seat cards; defaults to the address the console was opened at),
     ``EBBTIDE_FLOOD_EVENTS`` (messages a phone may send per 10 s, default 20; the
-    console gets three times as many).
+    console gets three times as many), ``EBBTIDE_ASYNC_MODE`` (gevent | threading; default:
+    gevent when the process is monkey-patched for it, else threading), ``EBBTIDE_GROUP_COMMIT``
+    (default True; False commits every change on its own, for measurements).
     """
     from . import frame_guard, sockets, web  # noqa: F401 - sockets registers its handlers on import
     from .console import events as console_events  # noqa: F401 - registers handlers
@@ -58,7 +58,9 @@ def create_app(config: dict[str, Any] | None = None) -> Flask:
         MAX_CONTENT_LENGTH=MAX_MESSAGE_BYTES,
     )
     app.config.update(config or {})
-    store = Store(app.config["EBBTIDE_DB"])
+    # Group commit unless EBBTIDE_GROUP_COMMIT=0 (one fsync per decision, kept to measure against).
+    group_commit = app.config.get("EBBTIDE_GROUP_COMMIT", os.environ.get("EBBTIDE_GROUP_COMMIT", "1") != "0")
+    store = Store(app.config["EBBTIDE_DB"], group_commit=group_commit, offload=run_blocking)
     registry = Registry(store)
     app.extensions["ebbtide"] = registry
     study = app.config.get("EBBTIDE_STUDY")
@@ -90,7 +92,8 @@ def create_app(config: dict[str, Any] | None = None) -> Flask:
     app.register_blueprint(teach_pages.bp)
     socketio.init_app(
         app,
-        async_mode=ASYNC_MODE,
+        # gevent in a monkey-patched ``serve`` process, threads elsewhere (server/serving.py).
+        async_mode=app.config.get("EBBTIDE_ASYNC_MODE") or async_mode(),
         max_http_buffer_size=MAX_MESSAGE_BYTES,
         ping_interval=10,
         ping_timeout=20,

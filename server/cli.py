@@ -3,16 +3,22 @@
 from __future__ import annotations
 
 import sys
-from collections.abc import Callable
-from pathlib import Path
 
-import click
-import numpy as np
+# First, before Flask or anything else is imported: a serving process patches for gevent.
+from ebbtide.server.serving import prepare_process
 
-from ebbtide.game_logic.behaviour import MODEL_NAMES
-from ebbtide.game_logic.errors import EbbtideError, StudyError
-from ebbtide.game_logic.study import Study, load_study
-from ebbtide.server.resources import example_study
+prepare_process(sys.argv)
+
+from collections.abc import Callable  # noqa: E402
+from pathlib import Path  # noqa: E402
+
+import click  # noqa: E402
+import numpy as np  # noqa: E402
+
+from ebbtide.game_logic.behaviour import MODEL_NAMES  # noqa: E402
+from ebbtide.game_logic.errors import EbbtideError, StudyError  # noqa: E402
+from ebbtide.game_logic.study import Study, load_study  # noqa: E402
+from ebbtide.server.resources import example_study  # noqa: E402
 
 DEMO_STUDY_FILE = "brackwater-demo.toml"
 

@@ -16,7 +16,7 @@ from ebbtide.game_logic.errors import Refused
 SeatSecret = Annotated[str, StringConstraints(pattern=r"^[A-Za-z0-9_-]{16,64}$")]
 ClientId = Annotated[str, StringConstraints(pattern=r"^[A-Za-z0-9_-]{8,64}$")]
 Count = Annotated[int, Field(ge=1, le=1000)]
-GroupNumber = Annotated[int, Field(ge=1, le=100)]
+GroupNumber = Annotated[int, Field(ge=1, le=200)]  # the cap of GroupsSpec.count
 SeatNumber = Annotated[int, Field(ge=1, le=100)]
 Harvest = Annotated[int, Field(ge=0, le=1000)]
 EntryId = Annotated[int, Field(ge=1, le=2**62)]

@@ -117,7 +117,7 @@ class LiveSession:
         nothing. The events must not depend on each other's checks (paper slips of
         one round: distinct seats).
         """
-        with self._lock:
+        with self.store.writing(), self._lock:  # a commit starting meanwhile waits for this change
             state = self._state
             fresh = []
             for kind, body, decision_id in requests:
@@ -130,22 +130,41 @@ class LiveSession:
                 fresh.append((kind, body, decision_id))
             if not fresh:
                 decision_id = requests[-1][2]
-                return Change(state.seq, False, receipt=state.receipts.get(decision_id))
-            draft = state.fork()
-            resolved: list[RoundOutcome] = []
-            with self.store.atomic(self.session_id) as writer:
-                for kind, body, decision_id in fresh:
-                    event, _ = writer.append(kind, body, decision_id)
-                    done = draft.apply(kind, body, decision_id, event.id)
-                    for outcome in done:
-                        audit, _ = writer.append("round_resolved", _audit(outcome))
-                        draft.seq = audit.id
-                    resolved.extend(done)
-            # Committed: publish. Had the write failed, the draft would simply be dropped.
-            self._state = draft
-            last_id = requests[-1][2]
-            receipt = draft.receipts.get(last_id) if last_id else None
-            return Change(draft.seq, True, tuple(resolved), receipt)
+                change = Change(state.seq, False, receipt=state.receipts.get(decision_id))
+                ticket = None  # a repeat: its first copy may still be on its way to disk
+            else:
+                change, ticket = self._write(state, fresh, requests)
+        try:
+            # Outside the session's lock: changes arriving meanwhile share the next commit's fsync.
+            self.store.make_durable(ticket)
+        except BaseException:
+            with self._lock:  # the commit failed: rebuild the state from what is really stored
+                self._state = replay(self.study, self.record.seed, self.session_id,
+                                     self.store.events(self.session_id))
+            raise
+        return change
+
+    def _write(self, state: SessionState, fresh: list, requests: list) -> tuple[Change, int]:
+        """Store (durable once a commit carries it) and fold checked events into a new version.
+
+        The caller holds the lock. The new version is published once its events are written
+        inside the open transaction, so the next decision is checked against it; had a write
+        failed, the savepoint rolls back and the draft is dropped, so nothing is published.
+        """
+        draft = state.fork()
+        resolved: list[RoundOutcome] = []
+        with self.store.pending(self.session_id) as writer:
+            for kind, body, decision_id in fresh:
+                event, _ = writer.append(kind, body, decision_id)
+                done = draft.apply(kind, body, decision_id, event.id)
+                for outcome in done:
+                    audit, _ = writer.append("round_resolved", _audit(outcome))
+                    draft.seq = audit.id
+                resolved.extend(done)
+        self._state = draft
+        last_id = requests[-1][2]
+        receipt = draft.receipts.get(last_id) if last_id else None
+        return Change(draft.seq, True, tuple(resolved), receipt), writer.ticket
 
     def seat_snapshot(self, group: int, seat: int) -> dict[str, Any]:
         """The ``snapshot`` payload of one seat: a validated ``PhoneSnapshot`` as JSON (phone/view.py)."""

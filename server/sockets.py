@@ -28,6 +28,7 @@ from ebbtide.game_logic.errors import EbbtideError, Refused, ServerError
 
 from .app import socketio
 from .console.access import COOKIE_KEY, logins, rehearsal_token, request_login
+from .console.refresh import refresh_for
 from .frame_guard import RESERVED_EVENTS
 from .messages import ConsoleAuth, PhoneAuth, from_validation_error
 from .phone.view import remember_language
@@ -94,6 +95,11 @@ def console_state(live: LiveSession) -> dict:
 
 
 def send_console(live: LiveSession) -> None:
+    """Refresh the console soon: coalesced (console/refresh.py), so a burst of decisions is one state."""
+    refresh_for(current_app, live.session_id, send_console_now).request()
+
+
+def send_console_now(live: LiveSession) -> None:
     socketio.emit("console_state", console_state(live), to=console_room(live.session_id))
 
 

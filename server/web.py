@@ -1,4 +1,4 @@
-"""The shared HTTP edge: health probe, origin checks, access helpers (headers: ``serving.GuardedWSGI``)."""
+"""The shared HTTP edge: health probe, origin checks, access helpers (headers: ``guard.GuardedWSGI``)."""
 
 from __future__ import annotations
 
@@ -39,7 +39,7 @@ def code_guard() -> CodeGuard:
 
 @bp.after_app_request
 def remember_language(response):
-    """A ``?lang=`` choice sticks for later pages (security headers: ``serving.GuardedWSGI``)."""
+    """A ``?lang=`` choice sticks for later pages (security headers: ``guard.GuardedWSGI``)."""
     lang = request.args.get("lang")
     if lang and registry().current_id and lang in registry().current.study.session.languages:
         response.set_cookie("lang", lang, samesite="Strict", max_age=30 * 86400)

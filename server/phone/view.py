@@ -27,7 +27,19 @@ from ..teach.revealed import chart_labels, plain_sentence
 
 
 def gauge_labels() -> dict[str, str]:
-    """The gauge's words (keys of ``gauge.DEFAULT_LABELS``) in the current language."""
+    """The gauge's words (keys of ``gauge.DEFAULT_LABELS``) in the current language.
+
+    Looked up once per language: every seat snapshot needs them, and thirteen gettext calls
+    per snapshot were the largest cost of a round with hundreds of phones (docs/performance.md).
+    """
+    cache = current_app.extensions.setdefault("ebbtide_gauge_labels", {})
+    language = str(get_locale())
+    if language not in cache:
+        cache[language] = _gauge_labels_now()
+    return dict(cache[language])
+
+
+def _gauge_labels_now() -> dict[str, str]:
     return {
         "stock": _("Stock"),
         "stock_of": _("of {capacity} {unit}"),
