@@ -87,7 +87,8 @@ def test_closed_round_records_missing_seats_as_no_decision_not_a_console_zero(lo
     from test_phone_snapshot import EnglishPainter
 
     def snapshot(seat):
-        return phone_snapshot(log.state, 1, seat, language="en", talk_remaining=None, painter=EnglishPainter())
+        return phone_snapshot(log.state, 1, seat, language="en", talk_remaining=None,
+                              painter=EnglishPainter())
 
     assert snapshot(0).missed_last_round is True
     assert snapshot(1).missed_last_round is False
