@@ -237,7 +237,8 @@ def test_a_revealed_debrief_reaches_phones_as_the_model_with_labels_not_names(wh
                 assert console.act("console_open_block", {"group": None})["ok"]
         wait_until(lambda: live.state.status == "ended", "the session to end")
         http = console_login(server.url, server.pin)
-        revealed = http.post(f"{server.url}/console/debrief/reveal", allow_redirects=False, timeout=5)
+        revealed = http.post(f"{server.url}/console/debrief/reveal", data={"form_token": http.form_token},
+                             allow_redirects=False, timeout=5)
         assert revealed.status_code == 303
         wait_until(lambda: all(p.latest().get("debrief") for p in phones.values()), "revealed debriefs")
     finally:
