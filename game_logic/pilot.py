@@ -162,29 +162,46 @@ class PilotRun:
     outcomes: tuple[RoundOutcome, ...]
 
 
-def run_pilot(study: Study, groups: int, seed: int, strategy: Model | str) -> PilotRun:
-    """Play groups 0..``groups``-1 through every block of ``study`` with a behaviour model."""
+def round_outcomes(step: RoundStep) -> list[RoundOutcome]:
+    """The ``RoundOutcome`` of every group in one round step, in the step's group order."""
+    r = step.result
+    return [
+        RoundOutcome(
+            group=int(g), block=step.block, round=step.round,
+            stock_before=int(step.stock_before[j]),
+            asked=tuple(int(a) for a in step.asked[j]),
+            taken=tuple(int(t) for t in r.taken[j]),
+            remaining=int(r.remaining[j]), stock_after=int(r.stock_after[j]),
+            regime_before=Regime.DEGRADED if step.degraded_before[j] else Regime.GOOD,
+            regime_after=Regime.DEGRADED if r.degraded_after[j] else Regime.GOOD,
+            threshold=None if np.isnan(step.threshold[j]) else float(step.threshold[j]),
+            crossed=bool(r.crossed[j]), recovered=bool(r.recovered[j]),
+            flip_draw=float(step.flip_draw[j]), continue_draw=float(step.continue_draw[j]),
+            block_over=bool(r.block_over[j]), end_reason=r.end_reason[j],
+        )
+        for j, g in enumerate(step.groups)
+    ]
+
+
+def stream_pilot(
+    study: Study, groups: int, seed: int, strategy: Model | str, on_outcome: Callable[[RoundOutcome], None]
+) -> str:
+    """Play groups 0..``groups``-1 as ``run_pilot`` does, handing each outcome to ``on_outcome``
+    in the same order instead of keeping them all; return the model's name."""
     if groups < 1:
         raise ValueError(f"groups must be at least 1, got {groups}")
     model = _as_model(study, strategy)
-    outcomes: list[RoundOutcome] = []
 
     def record(step: RoundStep) -> None:
-        r = step.result
-        for j, g in enumerate(step.groups):
-            outcomes.append(RoundOutcome(
-                group=int(g), block=step.block, round=step.round,
-                stock_before=int(step.stock_before[j]),
-                asked=tuple(int(a) for a in step.asked[j]),
-                taken=tuple(int(t) for t in r.taken[j]),
-                remaining=int(r.remaining[j]), stock_after=int(r.stock_after[j]),
-                regime_before=Regime.DEGRADED if step.degraded_before[j] else Regime.GOOD,
-                regime_after=Regime.DEGRADED if r.degraded_after[j] else Regime.GOOD,
-                threshold=None if np.isnan(step.threshold[j]) else float(step.threshold[j]),
-                crossed=bool(r.crossed[j]), recovered=bool(r.recovered[j]),
-                flip_draw=float(step.flip_draw[j]), continue_draw=float(step.continue_draw[j]),
-                block_over=bool(r.block_over[j]), end_reason=r.end_reason[j],
-            ))
+        for outcome in round_outcomes(step):
+            on_outcome(outcome)
 
     play(study, model, seed, np.arange(groups), record, live_draws=True)
-    return PilotRun(study, seed, groups, model.name, tuple(outcomes))
+    return model.name
+
+
+def run_pilot(study: Study, groups: int, seed: int, strategy: Model | str) -> PilotRun:
+    """Play groups 0..``groups``-1 through every block of ``study`` with a behaviour model."""
+    outcomes: list[RoundOutcome] = []
+    name = stream_pilot(study, groups, seed, strategy, outcomes.append)
+    return PilotRun(study, seed, groups, name, tuple(outcomes))
