@@ -306,8 +306,16 @@ def fit(export_dir: str, model_name: str, out_file: str) -> None:
               help="Simulated sessions per model.")
 @click.option("--seed", type=click.IntRange(0, 2**63 - 1), default=1, show_default=True,
               help="Seed of every simulated draw.")
-def preview(study_file: str, model_specs: tuple[str, ...], sessions: int, seed: int) -> None:
-    """Cash to carry and length of the day for STUDY_FILE, from simulated sessions."""
+@click.option("--html", "html_file", type=click.Path(dir_okay=False), default=None,
+              help="Also write the design preview as one self-contained HTML page (figures, phones).")
+@click.option("--power-model", "power_spec", default="threshold-averse", show_default=True,
+              metavar="NAME|FILE",
+              help="Behaviour model of the page's quick power curve.")
+@click.option("--power-sims", type=click.IntRange(10, 100_000), default=100, show_default=True,
+              help="Simulated studies per point of the page's quick power curve.")
+def preview(study_file: str, model_specs: tuple[str, ...], sessions: int, seed: int, html_file: str | None,
+            power_spec: str, power_sims: int) -> None:
+    """Cash to carry and length of the day for STUDY_FILE, from simulated sessions (--html: a whole page)."""
     from ebbtide.game_logic.behaviour import MODEL_NAMES
     from ebbtide.game_logic.budget import cash_budget
     from ebbtide.game_logic.design_review import expected_minutes
@@ -321,8 +329,10 @@ def preview(study_file: str, model_specs: tuple[str, ...], sessions: int, seed: 
     people = study.groups.count * study.seats
     click.echo(f"{study.session.title}: {study.groups.count} groups x {study.seats} seats = {people} "
                f"people; {sessions} simulated sessions per model, seed {seed}")
+    budgets = []
     for model in models:
         b = cash_budget(study, model, sessions=sessions, seed=seed)
+        budgets.append(b)
         click.echo(f"cash under {model.name}: {cash(b.expected)} {currency} expected, {cash(b.minimum)} "
                    f"to {cash(b.maximum)}; bring {cash(b.high)} for {b.quantile:.0%} of sessions")
         if b.minimum == b.maximum:
@@ -335,6 +345,12 @@ def preview(study_file: str, model_specs: tuple[str, ...], sessions: int, seed: 
                "talk pauses, debrief)")
     click.echo("Simulated under assumed behaviour, not a forecast; payments are real money: carry a margin "
                "and follow your institution's rules for cash.")
+    if html_file:
+        from ebbtide.server.design_preview import write_preview
+
+        written = write_preview(html_file, study, models, _model(power_spec, study), seed=seed,
+                                sessions=sessions, power_sims=power_sims, budgets=budgets)
+        click.echo(f"wrote {written}")
 
 
 # What ``serve`` says it did on start-up, by ``Opening.how`` (server/registry.py).
