@@ -267,7 +267,12 @@ def plan(study_file: str, out_file: str, groups: int | None, power_file: str | N
     except ValueError as exc:
         click.echo(f"plan not written: {exc}", err=True)
         sys.exit(2)
-    Path(out_file).write_text(plan_text(made), encoding="utf-8")
+    try:
+        Path(out_file).write_text(plan_text(made), encoding="utf-8")
+    except OSError as exc:
+        click.echo(f"--out {out_file}: cannot be written ({exc.strerror}); allowed: a file path in a "
+                   "writable folder", err=True)
+        sys.exit(2)
     for line in plan_summary(made):
         click.echo(line)
     click.echo(f"wrote {out_file}; keep it with the study file and give it to `ebbtide report --plan`")
@@ -348,8 +353,13 @@ def preview(study_file: str, model_specs: tuple[str, ...], sessions: int, seed: 
     if html_file:
         from ebbtide.server.design_preview import write_preview
 
-        written = write_preview(html_file, study, models, _model(power_spec, study), seed=seed,
-                                sessions=sessions, power_sims=power_sims, budgets=budgets)
+        try:
+            written = write_preview(html_file, study, models, _model(power_spec, study), seed=seed,
+                                    sessions=sessions, power_sims=power_sims, budgets=budgets)
+        except OSError as exc:
+            click.echo(f"--html {html_file}: cannot be written ({exc.strerror}); allowed: a file path in a "
+                       "writable folder", err=True)
+            sys.exit(2)
         click.echo(f"wrote {written}")
 
 
