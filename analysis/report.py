@@ -24,6 +24,7 @@ from .comparisons import block_comparisons, treatment_comparisons
 from .exports_reader import ExportData, read_export
 from .group_outcomes import group_outcomes
 from .panel import fit_panel_models
+from .plan import Plan, check_plan, departures, label_tests, planned_results
 from .summary import harvest_summary
 from .survival import good_regime_survival
 from .warning_signs import DEFINITIONS, indicator_summary, indicator_trends
@@ -82,8 +83,14 @@ def _pct(value: float) -> str:
     return "–" if np.isnan(value) else f"{100 * value:.0f}%"
 
 
-def build_report(data: ExportData, seed: int = 1) -> Report:
-    """Compute every table and figure of the report from an export folder's data."""
+def build_report(data: ExportData, seed: int = 1, plan: Plan | None = None) -> Report:
+    """Compute every table and figure of the report from an export folder's data.
+
+    With a pre-analysis ``plan`` (refused when made for another study), every test is
+    labelled confirmatory or exploratory and the departures from the plan are listed first.
+    """
+    if plan is not None:
+        check_plan(plan, data)
     rng = np.random.default_rng(seed)
     studies = data.studies()
     groups = group_outcomes(data, seed=seed)
@@ -97,6 +104,8 @@ def build_report(data: ExportData, seed: int = 1) -> Report:
     sections.append(_survival(groups, has_threshold, tables))
     sections.append(_regression(data, tables))
     sections.append(_early_warning(data, has_threshold, tables))
+    if plan is not None:
+        sections[:0] = _plan(plan, data, groups, np.random.default_rng([seed, 1]), tables)
     sessions = pd.DataFrame([
         {"session": s.session_id, "source": s.source, "seed": s.seed,
          "study SHA-256": s.study_sha256[:16] + "…"}
@@ -107,6 +116,24 @@ def build_report(data: ExportData, seed: int = 1) -> Report:
         designs.setdefault(info.study_sha256, tuple(design_summary(studies[info.session_id])))
     title = "Pooled sessions" if data.pooled else data.sessions[0].session_id
     return Report(f"Ebbtide analysis: {title}", sessions, tuple(designs.items()), tuple(sections), tables)
+
+
+def _plan(plan, data, groups, rng, tables) -> list[Section]:
+    results = planned_results(plan, groups, rng)
+    labelled = label_tests(plan, tables)
+    tables["plan_results"], tables["test_labels"] = results, labelled
+    reading = (
+        f"The plan of {plan.created} (study SHA-256 {plan.study_sha256[:16]}…, {plan.groups} groups) fixed "
+        f"{len(results)} comparison(s): their results are confirmatory; the other "
+        f"{(labelled['label'] == 'exploratory').sum()} test(s) of this report are exploratory."
+    )
+    moved = departures(plan, data, groups, results)
+    return [
+        Section("Pre-analysis plan: confirmatory and exploratory tests", reading,
+                (_html(results), _html(labelled))),
+        Section("Departures from the plan", " ".join(moved) if moved else
+                "None: the study file is the one planned and as many groups played as planned."),
+    ]
 
 
 def _benchmarks(studies, groups, tables) -> Section:
@@ -317,10 +344,10 @@ def render_html(report: Report, csv_names: list[str]) -> str:
     return TEMPLATE.render(report=report, sessions=_html(report.sessions), csv_names=csv_names)
 
 
-def write_report(folder: str | Path, out: str | Path, seed: int = 1) -> ReportFiles:
+def write_report(folder: str | Path, out: str | Path, seed: int = 1, plan: Plan | None = None) -> ReportFiles:
     """Read an export folder, write ``out`` (HTML) and ``<stem>-<table>.csv`` beside it."""
     data = read_export(folder)
-    report = build_report(data, seed=seed)
+    report = build_report(data, seed=seed, plan=plan)
     out = Path(out)
     out.parent.mkdir(parents=True, exist_ok=True)
     paths = [out.with_name(f"{out.stem}-{name}.csv") for name in report.tables]

@@ -154,12 +154,16 @@ def pool(folders: tuple[str, ...], out_dir: str, stata: bool) -> None:
               help="The HTML report to write; its tables go next to it as CSV files.")
 @click.option("--seed", type=click.IntRange(0, 2**63 - 1), default=1, show_default=True,
               help="Seed of the resampling (bootstrap, permutation test, selfish benchmark).")
-def report(folder: str, out_file: str, seed: int) -> None:
+@click.option("--plan", "plan_file", type=click.Path(dir_okay=False), default=None,
+              help="Pre-analysis plan written by `ebbtide plan`: label tests confirmatory or exploratory.")
+def report(folder: str, out_file: str, seed: int, plan_file: str | None) -> None:
     """Write a self-contained HTML analysis report of the export FOLDER."""
+    from ebbtide.analysis.plan import read_plan
     from ebbtide.analysis.report import write_report
 
     try:
-        written = write_report(folder, out_file, seed=seed)
+        plan = read_plan(plan_file) if plan_file else None
+        written = write_report(folder, out_file, seed=seed, plan=plan)
     except (EbbtideError, ValueError) as exc:
         click.echo(f"report not written: {exc}", err=True)
         sys.exit(2)
@@ -227,6 +231,61 @@ def power(study_file: str, model_spec: str, group_text: str, sims: int, seed: in
 
 
 @main.command()
+@click.argument("study_file", type=click.Path(dir_okay=False))
+@click.option("--out", "out_file", type=click.Path(dir_okay=False), required=True,
+              help="The plan file to write (TOML).")
+@click.option("--groups", type=click.IntRange(2, 100_000), default=None,
+              help="Groups planned over every session [default: the study's group count].")
+@click.option("--power", "power_file", type=click.Path(dir_okay=False), default=None,
+              help="power.csv written by `ebbtide power` [default: a small simulation with --model].")
+@click.option("--model", "model_spec", default="threshold-averse", show_default=True, metavar="NAME|FILE",
+              help="Behaviour model of the small power simulation (ignored with --power).")
+@click.option("--sims", type=click.IntRange(10, 100_000), default=400, show_default=True,
+              help="Simulated studies of the small power simulation.")
+@click.option("--outcome", type=click.Choice(["group_harvest_per_round", "share_degraded", "crossed",
+                                              "final_stock"]),
+              default="group_harvest_per_round", show_default=True, help="The group-level outcome tested.")
+@click.option("--level", type=click.FloatRange(0.001, 0.5), default=0.05, show_default=True,
+              help="Significance level of each planned test.")
+@click.option("--seed", type=click.IntRange(0, 2**63 - 1), default=1, show_default=True,
+              help="Seed of the power simulation.")
+def plan(study_file: str, out_file: str, groups: int | None, power_file: str | None, model_spec: str,
+         sims: int, outcome: str, level: float, seed: int) -> None:
+    """Write a pre-analysis plan of STUDY_FILE: planned comparisons, groups and power, hashed and dated."""
+    from datetime import UTC, datetime
+
+    from ebbtide.analysis.plan import make_plan, plan_summary, plan_text, power_from_file
+    from ebbtide.analysis.power import study_power
+
+    study = _load(study_file)
+    planned_groups = groups or study.groups.count
+    try:
+        if power_file:
+            power, source = power_from_file(power_file, planned_groups), f"file {Path(power_file).name}"
+        else:
+            model = _model(model_spec, study)
+            curve, hypotheses = study_power(study, model, [planned_groups], sims, seed=seed, outcome=outcome,
+                                            level=level, progress=False)
+            power = {h.label: (float(curve.power[0, j]), float(curve.standard_error[0, j]))
+                     for j, h in enumerate(hypotheses)}
+            source = f"simulation: model {model.name}, {sims} studies, seed {seed}"
+        created = datetime.now(UTC).replace(microsecond=0).isoformat()
+        made = make_plan(study, created, planned_groups, power, source, outcome=outcome, level=level)
+    except ValueError as exc:
+        click.echo(f"plan not written: {exc}", err=True)
+        sys.exit(2)
+    try:
+        Path(out_file).write_text(plan_text(made), encoding="utf-8")
+    except OSError as exc:
+        click.echo(f"--out {out_file}: cannot be written ({exc.strerror}); allowed: a file path in a "
+                   "writable folder", err=True)
+        sys.exit(2)
+    for line in plan_summary(made):
+        click.echo(line)
+    click.echo(f"wrote {out_file}; keep it with the study file and give it to `ebbtide report --plan`")
+
+
+@main.command()
 @click.argument("export_dir", type=click.Path(file_okay=False))
 @click.option("--model", "model_name", type=click.Choice(["conditional", "logit", "threshold-averse"]),
               required=True, help="The behaviour model to estimate (docs/behaviour-models.md).")
@@ -259,8 +318,16 @@ def fit(export_dir: str, model_name: str, out_file: str) -> None:
               help="Simulated sessions per model.")
 @click.option("--seed", type=click.IntRange(0, 2**63 - 1), default=1, show_default=True,
               help="Seed of every simulated draw.")
-def preview(study_file: str, model_specs: tuple[str, ...], sessions: int, seed: int) -> None:
-    """Cash to carry and length of the day for STUDY_FILE, from simulated sessions."""
+@click.option("--html", "html_file", type=click.Path(dir_okay=False), default=None,
+              help="Also write the design preview as one self-contained HTML page (figures, phones).")
+@click.option("--power-model", "power_spec", default="threshold-averse", show_default=True,
+              metavar="NAME|FILE",
+              help="Behaviour model of the page's quick power curve.")
+@click.option("--power-sims", type=click.IntRange(10, 100_000), default=100, show_default=True,
+              help="Simulated studies per point of the page's quick power curve.")
+def preview(study_file: str, model_specs: tuple[str, ...], sessions: int, seed: int, html_file: str | None,
+            power_spec: str, power_sims: int) -> None:
+    """Cash to carry and length of the day for STUDY_FILE, from simulated sessions (--html: a whole page)."""
     from ebbtide.game_logic.behaviour import MODEL_NAMES
     from ebbtide.game_logic.budget import cash_budget
     from ebbtide.game_logic.design_review import expected_minutes
@@ -274,8 +341,10 @@ def preview(study_file: str, model_specs: tuple[str, ...], sessions: int, seed: 
     people = study.groups.count * study.seats
     click.echo(f"{study.session.title}: {study.groups.count} groups x {study.seats} seats = {people} "
                f"people; {sessions} simulated sessions per model, seed {seed}")
+    budgets = []
     for model in models:
         b = cash_budget(study, model, sessions=sessions, seed=seed)
+        budgets.append(b)
         click.echo(f"cash under {model.name}: {cash(b.expected)} {currency} expected, {cash(b.minimum)} "
                    f"to {cash(b.maximum)}; bring {cash(b.high)} for {b.quantile:.0%} of sessions")
         if b.minimum == b.maximum:
@@ -288,6 +357,17 @@ def preview(study_file: str, model_specs: tuple[str, ...], sessions: int, seed: 
                "talk pauses, debrief)")
     click.echo("Simulated under assumed behaviour, not a forecast; payments are real money: carry a margin "
                "and follow your institution's rules for cash.")
+    if html_file:
+        from ebbtide.server.design_preview import write_preview
+
+        try:
+            written = write_preview(html_file, study, models, _model(power_spec, study), seed=seed,
+                                    sessions=sessions, power_sims=power_sims, budgets=budgets)
+        except OSError as exc:
+            click.echo(f"--html {html_file}: cannot be written ({exc.strerror}); allowed: a file path in a "
+                       "writable folder", err=True)
+            sys.exit(2)
+        click.echo(f"wrote {written}")
 
 
 # What ``serve`` says it did on start-up, by ``Opening.how`` (server/registry.py).
