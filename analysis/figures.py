@@ -77,17 +77,17 @@ def stock_paths(rounds: pd.DataFrame, chosen: pd.DataFrame, capacity: float) -> 
 
 
 def harvest_distributions(groups: pd.DataFrame) -> bytes:
-    """Box plots of each group's mean harvest per round, per block and treatment."""
+    """Box plots of each group's harvest per planned round, per block and treatment."""
     cells = list(groups.groupby(["block", "treatment"], sort=True))
     figure, ax = plt.subplots(figsize=(max(4.0, 1.2 * len(cells) + 1.5), 3.2))
     palette = colours(groups["treatment"].unique())
-    values = [cell["group_harvest_per_round"].to_numpy() for _, cell in cells]
+    values = [cell["group_harvest_per_planned_round"].to_numpy() for _, cell in cells]
     boxes = ax.boxplot(values, patch_artist=True, widths=0.6)
     for patch, ((_, treatment), _) in zip(boxes["boxes"], cells, strict=True):
         patch.set_facecolor(palette[treatment])
         patch.set_alpha(0.6)
     ax.set_xticks(range(1, len(cells) + 1), [f"b{b}\n{t}" for (b, t), _ in cells], fontsize=8)
-    ax.set_ylabel("group harvest per round (units)", fontsize=8)
+    ax.set_ylabel("group harvest per planned round (units)", fontsize=8)
     return _png(figure)
 
 

@@ -28,7 +28,8 @@ from .summary import harvest_summary
 from .survival import good_regime_survival
 from .warning_signs import DEFINITIONS, indicator_summary, indicator_trends
 
-OUTCOME = "group_harvest_per_round"
+# Per planned round: over the rounds played, emptying the stock early would look like a high take.
+OUTCOME = "group_harvest_per_planned_round"
 
 
 @dataclass(frozen=True)
@@ -117,6 +118,7 @@ def _benchmarks(studies, groups, tables) -> Section:
         rows.append({
             "block": block, "block_name": name, "groups": len(cell),
             "rounds_played_mean": cell["rounds_played"].mean(),
+            "horizon_rounds_mean": cell["horizon_rounds"].mean(),
             "optimum_total_mean": cell["optimum_total"].mean(),
             "selfish_total_mean": cell["selfish_total"].mean(),
             "sustainable_total_mean": cell["sustainable_total"].mean(),
@@ -133,8 +135,10 @@ def _benchmarks(studies, groups, tables) -> Section:
         f"{first.selfish_total_mean:.0f}; groups took {first.taken_total_mean:.0f} on average."
     )
     notes = (
-        "Social optimum: dynamic programming over whole-unit stocks and the regime for the rounds the group "
-        "actually played; with an uncertain threshold the planner knows only its distribution and does not "
+        "Fixed horizon: the rounds the design planned for the block when the group exhausted the stock (the "
+        "rounds lost count as zero harvest), otherwise the rounds played (a random stop is not the group's "
+        "doing). Social optimum: dynamic programming over whole-unit stocks and the regime for that horizon; "
+        "with an uncertain threshold the planner knows only its distribution and does not "
         "learn from the path (an approximation). Selfish: every seat takes the maximum, simulated through "
         "the model with drawn thresholds and flips.",
     )
@@ -144,7 +148,7 @@ def _benchmarks(studies, groups, tables) -> Section:
 def _harvests(data, groups, tables) -> Section:
     table = harvest_summary(groups, data.decisions, data.rounds)
     tables["summary"] = table
-    figure = Figure("Box plots of group harvest per round by block and treatment",
+    figure = Figure("Box plots of group harvest per planned round by block and treatment",
                     figures.harvest_distributions(groups))
     best = table.sort_values("ratio_to_optimum_mean").iloc[-1]
     reading = (
@@ -176,7 +180,8 @@ def _treatments(groups, rng, tables) -> Section:
     low = table.sort_values("p_mann_whitney").iloc[0]
     verdict = "a difference worth a closer look" if low.p_mann_whitney < 0.05 else "no clear difference"
     reading = (
-        f"Outcome: each group's mean harvest per round. Smallest Mann–Whitney p = {low.p_mann_whitney:.3f} "
+        "Outcome: each group's harvest per planned round (exhausted rounds count as zero). "
+        f"Smallest Mann–Whitney p = {low.p_mann_whitney:.3f} "
         f"({low.treatment_x} vs {low.treatment_y} in block {low.block}, common-language effect "
         f"{low.common_language:.2f}): {verdict} at this sample size."
     )

@@ -1,10 +1,13 @@
 """Survival of the good regime: Kaplan–Meier curves and the log-rank test by treatment.
 
-Each group-block is one subject. Its time is the round in which the stock
-first flipped to degraded (an event) or, if it never did, the last round the
-block ran (censored: the block ended, by its length or a random stop, before
-any flip). Blocks of the same group are not independent of one another; the
-test is meant for between-groups designs or one block at a time.
+Each group-block is one subject. Its time is the round in which the resource
+first collapsed (an event): the stock flipped to degraded or was exhausted
+(``collapsed`` / ``collapse_round`` of the group outcomes), whichever came
+first. If it never did, the time is the last round the block ran (censored:
+the block ended, by its length or a random stop, before any collapse). Blocks
+of the same group are not independent of one another; the log-rank test here
+is for between-groups designs or one block at a time, and ``paired_survival``
+handles two blocks played by the same groups.
 """
 
 from __future__ import annotations
@@ -34,8 +37,8 @@ class SurvivalResult:
 
 def survival_times(groups: pd.DataFrame) -> pd.DataFrame:
     """Time (rounds) and event flag of every group-block."""
-    event = groups["crossed"].astype(bool)
-    time = groups["first_cross_round"].where(event, groups["rounds_played"]).astype(float)
+    event = groups["collapsed"].astype(bool)
+    time = groups["collapse_round"].where(event, groups["rounds_played"]).astype(float)
     return pd.DataFrame({"time": time, "event": event, "stratum": groups["treatment"]})
 
 
@@ -62,7 +65,8 @@ def good_regime_survival(groups: pd.DataFrame, has_threshold: bool) -> SurvivalR
     data = survival_times(groups)
     curves = {s: kaplan_meier(d["time"], d["event"], s) for s, d in data.groupby("stratum", sort=True)}
     if not data["event"].any():
-        return SurvivalResult(curves, nan, 0, nan, "no group crossed the threshold: every time is censored")
+        return SurvivalResult(curves, nan, 0, nan,
+                              "no group collapsed (no flip, no exhaustion): every time is censored")
     if len(curves) < 2:
         return SurvivalResult(curves, nan, 0, nan, "only one treatment: there is nothing to compare")
     test = multivariate_logrank_test(data["time"], data["stratum"], data["event"])

@@ -77,8 +77,8 @@ def test_log_rank_matches_lifelines_textbook_value_and_hand_computation():
     leukaemia = load_leukemia()
     groups = pd.DataFrame({
         "treatment": np.where(leukaemia["Rx"] == 0, "6-MP", "placebo"),
-        "crossed": leukaemia["status"].astype(bool),
-        "first_cross_round": leukaemia["t"].astype(float),
+        "collapsed": leukaemia["status"].astype(bool),
+        "collapse_round": leukaemia["t"].astype(float),
         "rounds_played": leukaemia["t"],
     })
     result = good_regime_survival(groups, has_threshold=True)
@@ -101,10 +101,10 @@ def test_log_rank_matches_lifelines_textbook_value_and_hand_computation():
 
 
 def test_survival_not_applicable_without_threshold_or_crossings():
-    groups = pd.DataFrame({"treatment": ["none", "exact"], "crossed": [False, False],
-                           "first_cross_round": [np.nan, np.nan], "rounds_played": [10, 10]})
+    groups = pd.DataFrame({"treatment": ["none", "exact"], "collapsed": [False, False],
+                           "collapse_round": [np.nan, np.nan], "rounds_played": [10, 10]})
     assert "no threshold" in good_regime_survival(groups, has_threshold=False).not_applicable
-    assert "no group crossed" in good_regime_survival(groups, has_threshold=True).not_applicable
+    assert "no group collapsed" in good_regime_survival(groups, has_threshold=True).not_applicable
 
 
 def tiny_decisions(seed=3, groups=6, seats=3, rounds=5):

@@ -46,7 +46,7 @@ def test_report_of_a_pilot_where_nobody_crossed_keeps_curves_and_explains_the_te
     assert not data.rounds["crossed"].any()
     sections = sections_by_title(build_report(data))
     survival = sections["Survival of the good regime"]
-    assert "no group crossed" in survival.reading and len(survival.figures) == 1
+    assert "no group collapsed" in survival.reading and len(survival.figures) == 1
     assert sections["Block comparisons within groups"].not_applicable is None
 
 
