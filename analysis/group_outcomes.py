@@ -79,6 +79,9 @@ def group_outcomes(data: ExportData, seed: int = 1, replicates: int = 2000) -> p
     table["group_harvest_per_round"] = table["group_harvest_total"] / table["rounds_played"]
     table = table.reset_index()
     table.insert(0, "group", group_key(table))
+    # The design a row belongs to (first 12 hex digits of its study's SHA-256): pooled
+    # sessions of different designs are never compared as one sample.
+    table.insert(1, "design", [studies[s].sha256[:12] for s in table["session_id"]])
     table["planned_rounds"] = [
         studies[s].blocks[b - 1].rounds for s, b in zip(table["session_id"], table["block"], strict=True)
     ]

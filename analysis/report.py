@@ -25,7 +25,7 @@ from .exports_reader import ExportData, read_export
 from .group_outcomes import group_outcomes
 from .panel import fit_panel_models
 from .summary import harvest_summary
-from .survival import good_regime_survival
+from .survival import good_regime_survival, paired_collapse_tests, within_subject
 from .warning_signs import DEFINITIONS, indicator_summary, indicator_trends
 
 # Per planned round: over the rounds played, emptying the stock early would look like a high take.
@@ -77,6 +77,13 @@ def _html(table: pd.DataFrame) -> str:
 def _num(value: float, decimals: int) -> str:
     """Fixed decimals, or "n/a" for a missing value (never "nan" in prose)."""
     return "n/a" if value is None or np.isnan(value) else f"{value:.{decimals}f}"
+
+
+def _p(value: float) -> str:
+    """A p-value as readers expect it: "< 0.001" below that, three decimals otherwise."""
+    if value is None or np.isnan(value):
+        return "n/a"
+    return "< 0.001" if value < 0.001 else f"{value:.3f}"
 
 
 def _pct(value: float) -> str:
@@ -217,6 +224,22 @@ def _survival(groups, has_threshold, tables) -> Section:
     tables["survival"] = stacked
     figure = Figure("Kaplan–Meier curves of the good regime per treatment", figures.survival_curves(result))
     final = ", ".join(f"{t} {_pct(c['survival'].iloc[-1])}" for t, c in result.curves.items())
+    paired = paired_collapse_tests(groups) if within_subject(groups) and groups["collapsed"].any() \
+        else pd.DataFrame()
+    if not paired.empty:
+        tables["survival_paired"] = paired
+        row = paired.iloc[0]
+        reading = (
+            f"Still good at the end: {final}. Paired by group, block {row.block_x} collapsed first in "
+            f"{row.x_collapsed_first} groups and block {row.block_y} in {row.y_collapsed_first} "
+            f"({row.undetermined} of {row.pairs} pairs left open by censoring or a tie); "
+            f"sign test p = {_p(row.p_sign_test)}."
+        )
+        notes = ("Within-subject design: the blocks of the same groups are paired, so no log-rank test pools "
+                 "them as independent samples. Each pair is ordered by Gehan's rule (a collapse at round t "
+                 "comes before a later collapse and before a block that ended at t without one); open pairs "
+                 "are left out and the exact two-sided sign test counts the rest.",)
+        return Section(title, reading, (_html(paired),), (figure,), notes=notes)
     if result.not_applicable:
         reading = f"Still good at the end: {final}. Log-rank test not applicable: {result.not_applicable}."
     else:

@@ -77,6 +77,7 @@ def test_log_rank_matches_lifelines_textbook_value_and_hand_computation():
     leukaemia = load_leukemia()
     groups = pd.DataFrame({
         "treatment": np.where(leukaemia["Rx"] == 0, "6-MP", "placebo"),
+        "group": [f"patient{i}" for i in range(len(leukaemia))], "block": 1,  # independent subjects
         "collapsed": leukaemia["status"].astype(bool),
         "collapse_round": leukaemia["t"].astype(float),
         "rounds_played": leukaemia["t"],
@@ -101,7 +102,8 @@ def test_log_rank_matches_lifelines_textbook_value_and_hand_computation():
 
 
 def test_survival_not_applicable_without_threshold_or_crossings():
-    groups = pd.DataFrame({"treatment": ["none", "exact"], "collapsed": [False, False],
+    groups = pd.DataFrame({"treatment": ["none", "exact"], "group": ["a", "b"], "block": [1, 1],
+                           "collapsed": [False, False],
                            "collapse_round": [np.nan, np.nan], "rounds_played": [10, 10]})
     assert "no threshold" in good_regime_survival(groups, has_threshold=False).not_applicable
     assert "no group collapsed" in good_regime_survival(groups, has_threshold=True).not_applicable
