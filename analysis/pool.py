@@ -147,6 +147,11 @@ def pool_exports(folders: Sequence[str | Path], out: str | Path, stata: bool = F
     except BaseException:
         shutil.rmtree(staging, ignore_errors=True)
         raise
+    designs = {str(f.package["ebbtide"].get("study_sha256", "")) for f in kept.values()}
+    if len(designs) > 1:
+        notes.append(f"the pool holds {len(designs)} study designs (each session's study SHA-256 is in "
+                     "datapackage.json); ebbtide report compares them only with --by-design, within "
+                     "each design")
     return PoolResult(out, tuple(kept), tuple(notes))
 
 

@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import base64
 import warnings
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 
 import jinja2
@@ -21,6 +21,7 @@ from ebbtide.game_logic.design_review import design_summary
 
 from . import figures
 from .comparisons import block_comparisons, treatment_comparisons
+from .errors import MixedDesignsError
 from .exports_reader import ExportData, read_export
 from .group_outcomes import group_outcomes
 from .panel import fit_panel_models
@@ -52,6 +53,7 @@ class Section:
     figures: tuple[Figure, ...] = ()
     not_applicable: str | None = None
     notes: tuple[str, ...] = ()
+    scope: str = ""  # which design(s) the section's tables and tests are computed within
 
 
 @dataclass(frozen=True)
@@ -90,14 +92,76 @@ def _pct(value: float) -> str:
     return "–" if np.isnan(value) else f"{100 * value:.0f}%"
 
 
-def build_report(data: ExportData, seed: int = 1) -> Report:
-    """Compute every table and figure of the report from an export folder's data."""
+def designs_of(data: ExportData) -> dict[str, tuple[str, ...]]:
+    """Session ids per design (study SHA-256), in the order the sessions appear."""
+    found: dict[str, tuple[str, ...]] = {}
+    for info in data.sessions:
+        found[info.study_sha256] = found.get(info.study_sha256, ()) + (info.session_id,)
+    return found
+
+
+def _one_design(data: ExportData, session_ids: tuple[str, ...]) -> ExportData:
+    keep = set(session_ids)
+    return replace(
+        data,
+        sessions=tuple(s for s in data.sessions if s.session_id in keep),
+        decisions=data.decisions[data.decisions["session_id"].isin(keep)],
+        rounds=data.rounds[data.rounds["session_id"].isin(keep)],
+        seats=data.seats[data.seats["session_id"].isin(keep)],
+    )
+
+
+def build_report(data: ExportData, seed: int = 1, by_design: bool = False) -> Report:
+    """Compute every table and figure of the report from an export folder's data.
+
+    A pool of several designs is refused (``MixedDesignsError``) unless
+    ``by_design``: then every table and test is computed within each design
+    and says so; groups of two designs are never one sample.
+    """
+    designs = designs_of(data)
+    if len(designs) > 1 and not by_design:
+        listed = ", ".join(f"{sha[:12]} ({len(ids)} session(s))" for sha, ids in designs.items())
+        raise MixedDesignsError(
+            f"{data.folder}: the pool holds {len(designs)} study designs ({listed}); their blocks and "
+            "treatments are not comparable as one sample; add --by-design to compute every table "
+            "within each design, or pool sessions of one design"
+        )
+    studies = data.studies()
+    sections: list[Section] = []
+    tables: dict[str, pd.DataFrame] = {}
+    for sha, session_ids in designs.items():
+        part = data if len(designs) == 1 else _one_design(data, session_ids)
+        scope = f"Within design {sha[:12]}"
+        if len(designs) > 1:
+            scope += f", one of {len(designs)} in this pool ({len(session_ids)} session(s))"
+        suffix = "" if len(designs) == 1 else f" — design {sha[:12]}"
+        part_tables: dict[str, pd.DataFrame] = {}
+        for section in _design_sections(part, seed, part_tables):
+            sections.append(replace(section, title=section.title + suffix, scope=scope))
+        for name, table in part_tables.items():
+            if "design" not in table:
+                table = table.assign(design=sha[:12])[["design", *table.columns]]
+            tables[name] = pd.concat([tables[name], table], ignore_index=True) if name in tables else table
+    sessions = pd.DataFrame([
+        {"session": s.session_id, "source": s.source, "seed": s.seed,
+         "design": s.study_sha256[:12]}
+        for s in data.sessions
+    ])
+    described = {}
+    for info in data.sessions:
+        described.setdefault(info.study_sha256, tuple(design_summary(studies[info.session_id])))
+    title = "Pooled sessions" if data.pooled else data.sessions[0].session_id
+    return Report(f"Ebbtide analysis: {title}", sessions, tuple(described.items()), tuple(sections), tables)
+
+
+def _design_sections(data: ExportData, seed: int, tables: dict[str, pd.DataFrame]) -> list[Section]:
+    """Every section of one design's sessions (a single design: nothing here mixes designs)."""
     rng = np.random.default_rng(seed)
     studies = data.studies()
     groups = group_outcomes(data, seed=seed)
     has_threshold = any(s.threshold.rule != "none" for s in studies.values())
     capacity = max(s.resource.capacity for s in studies.values())
-    tables: dict[str, pd.DataFrame] = {"group_outcomes": groups}
+    tables["group_outcomes"] = groups
     sections = [_benchmarks(studies, groups, tables), _harvests(data, groups, tables)]
     sections.append(_stock_paths(data, groups, rng, capacity, has_threshold))
     sections.append(_treatments(groups, rng, tables))
@@ -105,16 +169,7 @@ def build_report(data: ExportData, seed: int = 1) -> Report:
     sections.append(_survival(groups, has_threshold, tables))
     sections.append(_regression(data, tables))
     sections.append(_early_warning(data, has_threshold, tables))
-    sessions = pd.DataFrame([
-        {"session": s.session_id, "source": s.source, "seed": s.seed,
-         "study SHA-256": s.study_sha256[:16] + "…"}
-        for s in data.sessions
-    ])
-    designs = {}
-    for info in data.sessions:
-        designs.setdefault(info.study_sha256, tuple(design_summary(studies[info.session_id])))
-    title = "Pooled sessions" if data.pooled else data.sessions[0].session_id
-    return Report(f"Ebbtide analysis: {title}", sessions, tuple(designs.items()), tuple(sections), tables)
+    return sections
 
 
 def _benchmarks(studies, groups, tables) -> Section:
@@ -309,6 +364,7 @@ h2 { font-size: 1.15rem; margin-top: 2rem; color: #2f6f73; }
 .reading { font-weight: 600; }
 .na { color: #6b5b00; font-style: italic; }
 .note { color: #4a5a60; font-size: .85rem; }
+.scope { color: #2f6f73; font-size: .8rem; margin: 0; }
 pre { background: #f3f6f6; padding: .6rem; overflow-x: auto; font-size: .85rem; }
 .scroll { overflow-x: auto; }
 table.data { border-collapse: collapse; font-size: .8rem; margin: .5rem 0; }
@@ -326,6 +382,7 @@ forecast for any real fishery, forest or pasture.</p>
 {% for sha, lines in report.designs %}<pre>{{ lines | join("\n") }}</pre>{% endfor %}
 {% for section in report.sections %}
 <section><h2>{{ section.title }}</h2>
+{% if section.scope %}<p class="scope">{{ section.scope }}.</p>{% endif %}
 {% if section.not_applicable and not section.figures %}
 <p class="na">Not applicable: {{ section.not_applicable }}.</p>
 {% else %}<p class="reading">{{ section.reading }}</p>
@@ -345,10 +402,10 @@ def render_html(report: Report, csv_names: list[str]) -> str:
     return TEMPLATE.render(report=report, sessions=_html(report.sessions), csv_names=csv_names)
 
 
-def write_report(folder: str | Path, out: str | Path, seed: int = 1) -> ReportFiles:
+def write_report(folder: str | Path, out: str | Path, seed: int = 1, by_design: bool = False) -> ReportFiles:
     """Read an export folder, write ``out`` (HTML) and ``<stem>-<table>.csv`` beside it."""
     data = read_export(folder)
-    report = build_report(data, seed=seed)
+    report = build_report(data, seed=seed, by_design=by_design)
     out = Path(out)
     out.parent.mkdir(parents=True, exist_ok=True)
     paths = [out.with_name(f"{out.stem}-{name}.csv") for name in report.tables]

@@ -147,12 +147,14 @@ def pool(folders: tuple[str, ...], out_dir: str, stata: bool) -> None:
               help="The HTML report to write; its tables go next to it as CSV files.")
 @click.option("--seed", type=click.IntRange(0, 2**63 - 1), default=1, show_default=True,
               help="Seed of the resampling (bootstrap, permutation test, selfish benchmark).")
-def report(folder: str, out_file: str, seed: int) -> None:
+@click.option("--by-design", is_flag=True,
+              help="For a pool of several study designs: compute every table and test within each design.")
+def report(folder: str, out_file: str, seed: int, by_design: bool) -> None:
     """Write a self-contained HTML analysis report of the export FOLDER."""
     from ebbtide.analysis.report import write_report
 
     try:
-        written = write_report(folder, out_file, seed=seed)
+        written = write_report(folder, out_file, seed=seed, by_design=by_design)
     except (EbbtideError, ValueError) as exc:
         click.echo(f"report not written: {exc}", err=True)
         sys.exit(2)
