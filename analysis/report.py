@@ -20,11 +20,13 @@ from ebbtide.game_logic.benchmarks import equal_share_of_sustainable_yield, maxi
 from ebbtide.game_logic.design_review import design_summary
 
 from . import figures
-from .comparisons import block_comparisons, treatment_comparisons
+from .comparisons import block_comparisons, omnibus_tests, treatment_comparisons
 from .errors import MixedDesignsError
 from .exports_reader import ExportData, read_export
 from .group_outcomes import group_outcomes
-from .panel import fit_panel_models
+from .panel import fit_panel_models, readable_term
+from .presentation import p_value as _p
+from .presentation import table_html
 from .summary import harvest_summary
 from .survival import good_regime_survival, paired_collapse_tests, within_subject
 from .warning_signs import DEFINITIONS, indicator_summary, indicator_trends
@@ -71,21 +73,13 @@ class ReportFiles:
     tables: tuple[Path, ...]
 
 
-def _html(table: pd.DataFrame) -> str:
-    return table.to_html(index=False, float_format=lambda v: f"{v:.4g}", na_rep="–", border=0,
-                         classes="data")
+def _html(table: pd.DataFrame, caption: str = "") -> str:
+    return table_html(table, caption)
 
 
 def _num(value: float, decimals: int) -> str:
     """Fixed decimals, or "n/a" for a missing value (never "nan" in prose)."""
     return "n/a" if value is None or np.isnan(value) else f"{value:.{decimals}f}"
-
-
-def _p(value: float) -> str:
-    """A p-value as readers expect it: "< 0.001" below that, three decimals otherwise."""
-    if value is None or np.isnan(value):
-        return "n/a"
-    return "< 0.001" if value < 0.001 else f"{value:.3f}"
 
 
 def _pct(value: float) -> str:
@@ -193,8 +187,8 @@ def _benchmarks(studies, groups, tables) -> Section:
     first = table.iloc[0]
     reading = (
         f"In block {first.block}, a planner who knew the length of play would expect "
-        f"{first.optimum_total_mean:.0f} units per group, everyone taking the maximum gives "
-        f"{first.selfish_total_mean:.0f}; groups took {first.taken_total_mean:.0f} on average."
+        f"{_num(first.optimum_total_mean, 0)} units per group, everyone taking the maximum gives "
+        f"{_num(first.selfish_total_mean, 0)}; groups took {_num(first.taken_total_mean, 0)} on average."
     )
     notes = (
         "Fixed horizon: the rounds the design planned for the block when the group exhausted the stock (the "
@@ -214,9 +208,10 @@ def _harvests(data, groups, tables) -> Section:
                     figures.harvest_distributions(groups))
     best = table.sort_values("ratio_to_optimum_mean").iloc[-1]
     reading = (
-        f"Groups took between {table.group_harvest_per_round_mean.min():.1f} and "
-        f"{table.group_harvest_per_round_mean.max():.1f} units a round on average; the closest to the "
-        f"optimum was block {best.block} / {best.treatment} at {_pct(best.ratio_to_optimum_mean)} of it."
+        f"Groups took between {_num(table.group_harvest_per_planned_round_mean.min(), 1)} and "
+        f"{_num(table.group_harvest_per_planned_round_mean.max(), 1)} units per planned round on average; "
+        f"the closest to the optimum was block {best.block} / {best.treatment} at "
+        f"{_pct(best.ratio_to_optimum_mean)} of it."
     )
     return Section("Harvests per block and treatment", reading, (_html(table),), (figure,))
 
@@ -238,20 +233,31 @@ def _treatments(groups, rng, tables) -> Section:
     table = treatment_comparisons(groups, OUTCOME, rng)
     if table.empty:
         return Section(title, not_applicable="no block has two treatments with at least two groups each")
+    omnibus = omnibus_tests(groups, OUTCOME)
+    tables["treatment_omnibus"] = omnibus
     tables["treatment_comparisons"] = table
-    low = table.sort_values("p_mann_whitney").iloc[0]
-    verdict = "a difference worth a closer look" if low.p_mann_whitney < 0.05 else "no clear difference"
+    first = omnibus.sort_values("p_kruskal_wallis").iloc[0]
+    low = table.sort_values("p_holm").iloc[0]
+    verdict = "a difference worth a closer look" if low.p_holm < 0.05 else "no clear difference"
     reading = (
         "Outcome: each group's harvest per planned round (exhausted rounds count as zero). "
-        f"Smallest Mann–Whitney p = {low.p_mann_whitney:.3f} "
-        f"({low.treatment_x} vs {low.treatment_y} in block {low.block}, common-language effect "
-        f"{low.common_language:.2f}): {verdict} at this sample size."
+        f"Across all {first.treatments} treatments of block {first.block}: Kruskal–Wallis H = "
+        f"{_num(first.h, 2)} on {first.df} df, p = {_p(first.p_kruskal_wallis)}. "
+        f"Smallest Holm-adjusted pairwise Mann–Whitney p = {_p(low.p_holm)} "
+        f"({low.treatment_x} vs {low.treatment_y}, common-language effect "
+        f"{_num(low.common_language, 2)}): {verdict} at this sample size."
     )
-    columns = ["block", "treatment_x", "treatment_y", "n_x", "n_y", "mean_x", "mean_y", "u", "p_mann_whitney",
-               "p_permutation", "mean_difference", "mean_difference_low", "mean_difference_high",
-               "common_language", "common_language_low", "common_language_high", "rank_biserial"]
-    return Section(title, reading, (_html(table[columns]),),
-                   notes=("Intervals: 95% percentile bootstrap; permutation test of the mean difference.",))
+    columns = ["block", "treatment_x", "treatment_y", "n_x", "n_y", "mean_x", "mean_y",
+               "mean_difference", "mean_difference_low", "mean_difference_high",
+               "common_language", "common_language_low", "common_language_high", "rank_biserial",
+               "u", "p_mann_whitney", "p_holm", "p_permutation"]
+    omnibus_columns = ["block", "treatments", "groups", "h", "df", "p_kruskal_wallis"]
+    notes = ("Omnibus: Kruskal–Wallis across the treatments of a block; pairwise: Mann–Whitney U with Holm's "
+             "step-down correction within the block, and a permutation test of the mean difference (not "
+             "adjusted). Intervals: 95% percentile bootstrap for the mean difference, logit-scale interval "
+             "with DeLong's variance for the common-language effect.",)
+    return Section(title, reading, (_html(omnibus[omnibus_columns], "Omnibus test per block"),
+                                    _html(table[columns], "Pairwise comparisons")), notes=notes)
 
 
 def _blocks(groups, tables) -> Section:
@@ -265,7 +271,8 @@ def _blocks(groups, tables) -> Section:
     row = table.iloc[0]
     reading = (
         f"Block {row.block_x} ({row.treatment_x}) minus block {row.block_y} ({row.treatment_y}): median "
-        f"change {row.median_difference:+.2f} units a round per group, p = {row.p_value:.3f} (n = {row.n})."
+        f"change {_num(row.median_difference, 2)} units per planned round per group, p = {_p(row.p_value)} "
+        f"(n = {row.n})."
     )
     return Section(title, reading, (_html(table),))
 
@@ -299,8 +306,8 @@ def _survival(groups, has_threshold, tables) -> Section:
         reading = f"Still good at the end: {final}. Log-rank test not applicable: {result.not_applicable}."
     else:
         reading = (
-            f"Still good at the end: {final}. Log-rank chi-square = {result.logrank_statistic:.2f} "
-            f"on {result.logrank_df} df, p = {result.logrank_p:.3f}."
+            f"Still good at the end: {final}. Log-rank chi-square = {_num(result.logrank_statistic, 2)} "
+            f"on {result.logrank_df} df, p = {_p(result.logrank_p)}."
         )
     return Section(title, reading, figures=(figure,))
 
@@ -318,13 +325,18 @@ def _regression(data, tables) -> Section:
     tables["regression"] = models.table
     notes = models.notes + tuple(f"warning: {str(w.message).splitlines()[0]}" for w in caught)
     lag = models.table.set_index("term").loc["others_lag"]
+    bases = ", ".join(f"{name} {level}" for name, level in models.bases.items())
     reading = (
         f"{models.formula} on {models.observations} seat-rounds, {models.groups} groups, "
         f"{models.seats} seats. "
-        f"One more unit taken by the others last round goes with {lag.ols_coef:+.2f} units asked now "
-        f"(cluster-robust SE {lag.ols_cluster_se:.2f})."
+        f"One more unit taken by the others last round goes with {_num(lag.ols_coef, 2)} units asked now "
+        f"(95% CI {_num(lag.ols_coef_low, 2)} to {_num(lag.ols_coef_high, 2)}, standard errors clustered by "
+        f"group, {models.clusters} clusters)."
+        + (f" Base categories: {bases}." if bases else "")
     )
-    return Section(title, reading, (_html(models.table),), notes=notes)
+    shown = models.table.assign(term=[readable_term(t, models.bases) for t in models.table["term"]])
+    caption = f"OLS: standard errors clustered by group ({models.clusters} clusters)"
+    return Section(title, reading, (_html(shown, caption),), notes=notes)
 
 
 def _early_warning(data, has_threshold, tables) -> Section:

@@ -11,7 +11,7 @@ from numpy.testing import assert_allclose
 from scipy import stats
 
 from ebbtide.analysis.comparisons import compare_paired, compare_two
-from ebbtide.analysis.panel import fit_panel_models, panel_frame
+from ebbtide.analysis.panel import fit_panel_models, panel_frame, readable_term
 from ebbtide.analysis.survival import good_regime_survival, kaplan_meier
 
 
@@ -161,3 +161,10 @@ def test_cluster_robust_errors_match_the_sandwich_formula_by_hand():
     terms = ["Intercept", "C(treatment)[T.none]", "round", "lagged_stock", "others_lag"]
     assert_allclose(table.loc[terms, "ols_coef"], beta, rtol=1e-9)
     assert_allclose(table.loc[terms, "ols_cluster_se"], np.sqrt(np.diag(covariance)), rtol=1e-9)
+    # 95% Wald interval with the normal quantile (statsmodels' cluster covariance uses z, not t).
+    half = stats.norm.ppf(0.975) * np.sqrt(np.diag(covariance))
+    assert_allclose(table.loc[terms, "ols_coef_low"], beta - half, rtol=1e-9)
+    assert_allclose(table.loc[terms, "ols_coef_high"], beta + half, rtol=1e-9)
+    # The base of the treatment dummy is the level the design matrix above leaves out.
+    assert models.bases == {"treatment": "exact"} and models.clusters == g
+    assert readable_term("C(treatment)[T.none]", models.bases) == "treatment none (base: exact)"
