@@ -157,6 +157,8 @@ def _design_sections(data: ExportData, seed: int, tables: dict[str, pd.DataFrame
     capacity = max(s.resource.capacity for s in studies.values())
     tables["group_outcomes"] = groups
     sections = [_benchmarks(studies, groups, tables), _harvests(data, groups, tables)]
+    sections.append(_round_means(data, groups, tables))
+    sections.append(_earnings(data, tables))
     sections.append(_stock_paths(data, groups, rng, capacity, has_threshold))
     sections.append(_treatments(groups, rng, tables))
     sections.append(_blocks(groups, tables))
@@ -221,11 +223,42 @@ def _stock_paths(data, groups, rng, capacity, has_threshold) -> Section:
     figure = Figure(f"Stock paths of {len(chosen)} sampled groups",
                     figures.stock_paths(data.rounds, chosen, capacity))
     shown = "the dashed line is the group's revealed threshold; " if has_threshold else ""
+    crossed = int(chosen["crossed"].sum())
     reading = (
-        f"{len(chosen)} of {len(groups)} group-blocks, drawn at random per treatment (crossings first); "
-        f"{shown}grey rounds ended in the degraded regime."
+        f"{len(chosen)} of {len(groups)} group-blocks, a simple random sample per block and treatment "
+        f"({crossed} of them crossed, {_pct(groups['crossed'].mean())} of all group-blocks did); "
+        f"{shown}grey rounds ended in the degraded regime (see the legend)."
     )
     return Section("Stock paths", reading, figures=(figure,))
+
+
+def _round_means(data, groups, tables) -> Section:
+    means = figures.round_means(data.rounds, groups)
+    tables["round_means"] = means
+    figure = Figure("Mean group harvest and mean stock by round, per block and treatment",
+                    figures.round_means_figure(means))
+    reading = ("Mean group harvest and mean stock at the start of each round, per block and treatment; "
+               "a group that exhausted the stock counts with harvest 0 and stock 0 in the rounds it lost.")
+    return Section("Harvest and stock by round", reading, figures=(figure,))
+
+
+def _earnings(data, tables) -> Section:
+    per_seat = data.decisions.groupby(["session_id", "group_id", "seat_id", "block", "treatment"],
+                                      sort=False)["points"].sum().reset_index()
+    rows = []
+    for (block, treatment), cell in per_seat.groupby(["block", "treatment"], sort=True):
+        points = cell["points"].astype(float)
+        rows.append({"block": block, "treatment": treatment, "seats": len(cell),
+                     "points_per_seat_mean": points.mean(), "points_per_seat_median": points.median(),
+                     "points_per_seat_sd": points.std(ddof=1) if len(points) > 1 else float("nan"),
+                     "points_per_seat_min": points.min(), "points_per_seat_max": points.max()})
+    table = pd.DataFrame(rows)
+    tables["earnings"] = table
+    top = table.sort_values("points_per_seat_mean").iloc[-1]
+    reading = ("Points a seat earned in a block, by treatment: the highest mean is "
+               f"{_num(top.points_per_seat_mean, 1)} points ({top.treatment}, block {top.block}).")
+    notes = ("Cash (show-up fee included, rounded up) is paid over the whole session: see seats.csv.",)
+    return Section("Earnings by treatment", reading, (_html(table),), notes=notes)
 
 
 def _treatments(groups, rng, tables) -> Section:

@@ -61,7 +61,7 @@ def test_written_report_is_self_contained_and_writes_csv_tables(tmp_path):
     html = files.html.read_text(encoding="utf-8")
     assert not re.search(r"(src|href)\s*=\s*[\"']?(https?:|//)", html)
     assert "http://" not in html and "https://" not in html
-    assert html.count("<img ") == 3
+    assert html.count("<img ") == 4  # harvest box plots, round means, stock paths, survival curves
     assert "not a\nforecast" in html or "not a forecast" in html
     names = {p.name for p in files.tables}
     assert {"r-summary.csv", "r-group_outcomes.csv", "r-regression.csv", "r-block_comparisons.csv"} <= names

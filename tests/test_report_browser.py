@@ -29,7 +29,7 @@ def test_report_of_200_group_pilot_renders_every_figure_offline(tmp_path, browse
         )
     finally:
         context.close()
-    assert count == 3  # harvest box plots, stock paths, survival curves
+    assert count == 4  # harvest box plots, round means, stock paths, survival curves
     assert all(box is not None and box["width"] > 0 and box["height"] > 0 for box in sizes)
     assert complete
     # data: URIs of embedded figures are not network requests; anything else would be.
