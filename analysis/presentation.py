@@ -26,6 +26,7 @@ HEADERS = {
     "p_sign_test": "p (sign test)",
     "p_kruskal_wallis": "p (Kruskal–Wallis)",
     "h": "H",
+    "p_value": "p",
     "df": "df",
     "common_language": "Common-language effect",
     "rank_biserial": "Rank-biserial r",
@@ -91,8 +92,8 @@ def formatted(table: pd.DataFrame) -> pd.DataFrame:
     merged = {f"{c}_low" for c in table if f"{c}_low" in table and f"{c}_high" in table}
     merged |= {f"{c}_high" for c in table if f"{c}_low" in table and f"{c}_high" in table}
     for column in table:
-        if column in merged:
-            continue
+        if column in merged or (column == "outcome" and table[column].nunique() <= 1):
+            continue  # a single outcome is named in the section's reading
         values = table[column]
         if is_p_column(column):
             cells = [p_value(v) for v in values]

@@ -410,11 +410,23 @@ h2 { font-size: 1.15rem; margin-top: 2rem; color: #2f6f73; }
 .na { color: #6b5b00; font-style: italic; }
 .note { color: #4a5a60; font-size: .85rem; }
 .scope { color: #2f6f73; font-size: .8rem; margin: 0; }
-pre { background: #f3f6f6; padding: .6rem; overflow-x: auto; font-size: .85rem; }
+pre { background: #f3f6f6; padding: .6rem; white-space: pre-wrap; overflow-wrap: break-word;
+      font-size: .85rem; }
 .scroll { overflow-x: auto; }
 table.data { border-collapse: collapse; font-size: .8rem; margin: .5rem 0; }
+table.data caption { text-align: left; font-size: .8rem; color: #4a5a60; padding: .2rem 0; }
 table.data th, table.data td { padding: .2rem .45rem; border-bottom: 1px solid #d6dede; text-align: right; }
-table.data th { background: #e7efef; }
+table.data th { background: #e7efef; vertical-align: bottom; max-width: 9rem; overflow-wrap: break-word; }
+table.data td { white-space: nowrap; }
+@page { size: A4; margin: 12mm; }
+@media print {
+  body { max-width: none; margin: 0; padding: 0; font-size: 10pt; }
+  .scroll { overflow: visible; }
+  table.data { font-size: 7.5pt; break-inside: auto; }
+  table.data th, table.data td { padding: .1rem .3rem; }
+  h2 { break-after: avoid; }
+  img { break-inside: avoid; }
+}
 img { max-width: 100%; height: auto; display: block; margin: .5rem 0; }
 </style></head><body>
 <h1>{{ report.title }}</h1>
