@@ -27,6 +27,7 @@ from .group_outcomes import group_outcomes
 from .panel import fit_panel_models, readable_term
 from .presentation import p_value as _p
 from .presentation import table_html
+from .progress import progress_bar
 from .summary import harvest_summary
 from .survival import good_regime_survival, paired_collapse_tests, within_subject
 from .warning_signs import DEFINITIONS, indicator_summary, indicator_trends
@@ -105,12 +106,13 @@ def _one_design(data: ExportData, session_ids: tuple[str, ...]) -> ExportData:
     )
 
 
-def build_report(data: ExportData, seed: int = 1, by_design: bool = False) -> Report:
+def build_report(data: ExportData, seed: int = 1, by_design: bool = False, bar=None) -> Report:
     """Compute every table and figure of the report from an export folder's data.
 
     A pool of several designs is refused (``MixedDesignsError``) unless
     ``by_design``: then every table and test is computed within each design
-    and says so; groups of two designs are never one sample.
+    and says so; groups of two designs are never one sample. ``bar`` (a
+    progress bar, optional) advances one step per section.
     """
     designs = designs_of(data)
     if len(designs) > 1 and not by_design:
@@ -121,6 +123,8 @@ def build_report(data: ExportData, seed: int = 1, by_design: bool = False) -> Re
             "within each design, or pool sessions of one design"
         )
     studies = data.studies()
+    if bar is not None:
+        bar.total = (bar.total or 0) + len(SECTION_BUILDERS) * len(designs)
     sections: list[Section] = []
     tables: dict[str, pd.DataFrame] = {}
     for sha, session_ids in designs.items():
@@ -130,7 +134,7 @@ def build_report(data: ExportData, seed: int = 1, by_design: bool = False) -> Re
             scope += f", one of {len(designs)} in this pool ({len(session_ids)} session(s))"
         suffix = "" if len(designs) == 1 else f" — design {sha[:12]}"
         part_tables: dict[str, pd.DataFrame] = {}
-        for section in _design_sections(part, seed, part_tables):
+        for section in _design_sections(part, seed, part_tables, bar):
             sections.append(replace(section, title=section.title + suffix, scope=scope))
         for name, table in part_tables.items():
             if "design" not in table:
@@ -148,23 +152,24 @@ def build_report(data: ExportData, seed: int = 1, by_design: bool = False) -> Re
     return Report(f"Ebbtide analysis: {title}", sessions, tuple(described.items()), tuple(sections), tables)
 
 
-def _design_sections(data: ExportData, seed: int, tables: dict[str, pd.DataFrame]) -> list[Section]:
+def _design_sections(data: ExportData, seed: int, tables: dict[str, pd.DataFrame], bar=None) -> list[Section]:
     """Every section of one design's sessions (a single design: nothing here mixes designs)."""
     rng = np.random.default_rng(seed)
     studies = data.studies()
     groups = group_outcomes(data, seed=seed)
-    has_threshold = any(s.threshold.rule != "none" for s in studies.values())
-    capacity = max(s.resource.capacity for s in studies.values())
+    context = {
+        "data": data, "studies": studies, "groups": groups, "rng": rng, "tables": tables,
+        "has_threshold": any(s.threshold.rule != "none" for s in studies.values()),
+        "capacity": max(s.resource.capacity for s in studies.values()),
+    }
     tables["group_outcomes"] = groups
-    sections = [_benchmarks(studies, groups, tables), _harvests(data, groups, tables)]
-    sections.append(_round_means(data, groups, tables))
-    sections.append(_earnings(data, tables))
-    sections.append(_stock_paths(data, groups, rng, capacity, has_threshold))
-    sections.append(_treatments(groups, rng, tables))
-    sections.append(_blocks(groups, tables))
-    sections.append(_survival(groups, has_threshold, tables))
-    sections.append(_regression(data, tables))
-    sections.append(_early_warning(data, has_threshold, tables))
+    sections = []
+    for name, build in SECTION_BUILDERS:
+        if bar is not None:
+            bar.set_description(f"report: {name}")
+        sections.append(build(context))
+        if bar is not None:
+            bar.update(1)
     return sections
 
 
@@ -395,6 +400,22 @@ def _early_warning(data, has_threshold, tables) -> Section:
     return Section(title, reading, (_html(summary),), notes=(DEFINITIONS,))
 
 
+# The report's sections in order, each built from the design's shared context.
+SECTION_BUILDERS = (
+    ("benchmarks", lambda c: _benchmarks(c["studies"], c["groups"], c["tables"])),
+    ("harvests", lambda c: _harvests(c["data"], c["groups"], c["tables"])),
+    ("harvest and stock by round", lambda c: _round_means(c["data"], c["groups"], c["tables"])),
+    ("earnings", lambda c: _earnings(c["data"], c["tables"])),
+    ("stock paths", lambda c: _stock_paths(c["data"], c["groups"], c["rng"], c["capacity"],
+                                           c["has_threshold"])),
+    ("treatments", lambda c: _treatments(c["groups"], c["rng"], c["tables"])),
+    ("blocks", lambda c: _blocks(c["groups"], c["tables"])),
+    ("survival", lambda c: _survival(c["groups"], c["has_threshold"], c["tables"])),
+    ("regression", lambda c: _regression(c["data"], c["tables"])),
+    ("early warning", lambda c: _early_warning(c["data"], c["has_threshold"], c["tables"])),
+)
+
+
 TEMPLATE = jinja2.Environment(autoescape=True, undefined=jinja2.StrictUndefined).from_string("""\
 <!doctype html>
 <html lang="en"><head><meta charset="utf-8">
@@ -459,14 +480,22 @@ def render_html(report: Report, csv_names: list[str]) -> str:
     return TEMPLATE.render(report=report, sessions=_html(report.sessions), csv_names=csv_names)
 
 
-def write_report(folder: str | Path, out: str | Path, seed: int = 1, by_design: bool = False) -> ReportFiles:
-    """Read an export folder, write ``out`` (HTML) and ``<stem>-<table>.csv`` beside it."""
-    data = read_export(folder)
-    report = build_report(data, seed=seed, by_design=by_design)
-    out = Path(out)
-    out.parent.mkdir(parents=True, exist_ok=True)
-    paths = [out.with_name(f"{out.stem}-{name}.csv") for name in report.tables]
-    for path, table in zip(paths, report.tables.values(), strict=True):
-        table.to_csv(path, index=False)
-    out.write_text(render_html(report, [p.name for p in paths]), encoding="utf-8")
+def write_report(folder: str | Path, out: str | Path, seed: int = 1, by_design: bool = False,
+                 progress: bool | None = None) -> ReportFiles:
+    """Read an export folder, write ``out`` (HTML) and ``<stem>-<table>.csv`` beside it.
+
+    ``progress`` None shows a bar only on a terminal; True or False force it on or off.
+    """
+    with progress_bar(2, "report: reading", show=progress) as bar:
+        data = read_export(folder)
+        bar.update(1)
+        report = build_report(data, seed=seed, by_design=by_design, bar=bar)
+        bar.set_description("report: writing")
+        out = Path(out)
+        out.parent.mkdir(parents=True, exist_ok=True)
+        paths = [out.with_name(f"{out.stem}-{name}.csv") for name in report.tables]
+        for path, table in zip(paths, report.tables.values(), strict=True):
+            table.to_csv(path, index=False)
+        out.write_text(render_html(report, [p.name for p in paths]), encoding="utf-8")
+        bar.update(1)
     return ReportFiles(out, tuple(paths))

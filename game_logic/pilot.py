@@ -134,8 +134,12 @@ class PilotRun:
     outcomes: tuple[RoundOutcome, ...]
 
 
-def run_pilot(study: Study, groups: int, seed: int, strategy: Model | str) -> PilotRun:
-    """Play groups 0..``groups``-1 through every block of ``study`` with a behaviour model."""
+def run_pilot(study: Study, groups: int, seed: int, strategy: Model | str,
+              on_round: Callable[[RoundStep], None] | None = None) -> PilotRun:
+    """Play groups 0..``groups``-1 through every block of ``study`` with a behaviour model.
+
+    ``on_round`` (optional) sees each round step after it is recorded, e.g. to show progress.
+    """
     if groups < 1:
         raise ValueError(f"groups must be at least 1, got {groups}")
     model = _as_model(study, strategy)
@@ -157,6 +161,8 @@ def run_pilot(study: Study, groups: int, seed: int, strategy: Model | str) -> Pi
                 flip_draw=float(step.flip_draw[j]), continue_draw=float(step.continue_draw[j]),
                 block_over=bool(r.block_over[j]), end_reason=r.end_reason[j],
             ))
+        if on_round is not None:
+            on_round(step)
 
     play(study, model, seed, np.arange(groups), record, live_draws=True)
     return PilotRun(study, seed, groups, model.name, tuple(outcomes))

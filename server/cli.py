@@ -99,6 +99,7 @@ def check(study_file: str) -> None:
 def pilot(study_file: str, groups: int, seed: int, strategy: str, model_spec: str | None,
           out_dir: str) -> None:
     """Simulate groups offline through STUDY_FILE and write the export tables."""
+    from ebbtide.analysis.progress import progress_bar
     from ebbtide.exports.build import tables_from_outcomes
     from ebbtide.exports.writer import write_export
     from ebbtide.game_logic.pilot import run_pilot
@@ -106,12 +107,19 @@ def pilot(study_file: str, groups: int, seed: int, strategy: str, model_spec: st
     study = _load(study_file)
     model = _model(model_spec or strategy, study)
     strategy = model.name
-    run = run_pilot(study, groups=groups, seed=seed, strategy=model)
-    session_id = f"pilot-{study.session.id}-{strategy}-s{seed}"
-    tables = tables_from_outcomes(
-        study, session_id, run.outcomes, lambda o: ["pilot"] * len(o.asked), groups=groups
-    )
-    write_export(out_dir, study, session_id, seed, "pilot", tables)
+    # One step per planned round of play (blocks that end early jump ahead), one to write.
+    with progress_bar(study.total_rounds + 1, "pilot: playing", "round") as bar:
+        starts = [sum(b.rounds for b in study.blocks[:i]) for i in range(len(study.blocks))]
+        run = run_pilot(study, groups=groups, seed=seed, strategy=model,
+                        on_round=lambda step: bar.update(starts[step.block] + step.round - bar.n))
+        bar.set_description("pilot: writing")
+        bar.update(study.total_rounds - bar.n)
+        session_id = f"pilot-{study.session.id}-{strategy}-s{seed}"
+        tables = tables_from_outcomes(
+            study, session_id, run.outcomes, lambda o: ["pilot"] * len(o.asked), groups=groups
+        )
+        write_export(out_dir, study, session_id, seed, "pilot", tables)
+        bar.update(1)
     rounds = tables["rounds"]
     ever_crossed = {r["group_id"] for r in rounds if r["crossed"]}
     click.echo(
@@ -425,6 +433,7 @@ def export(db_path: str, out_dir: str, stata: bool) -> None:
     import sqlite3
     import tempfile
 
+    from ebbtide.analysis.progress import progress_bar
     from ebbtide.exports.stata import write_stata
     from ebbtide.game_logic.errors import EbbtideError
     from ebbtide.server.store.export import export_database
@@ -443,10 +452,18 @@ def export(db_path: str, out_dir: str, stata: bool) -> None:
     # Written beside --out and renamed at the end: a damaged database leaves nothing behind.
     staging = Path(tempfile.mkdtemp(prefix=f".{out.name}-", dir=out.parent))
     try:
-        folders = export_database(db_path, staging)
-        if stata:
-            for folder in folders:
-                write_stata(folder)
+        with progress_bar(None, "export: sessions", "session") as bar:
+
+            def tell(done: int, total: int) -> None:
+                bar.total = total * (2 if stata else 1)
+                bar.update(done - bar.n)
+                bar.refresh()  # the total is known only now: redraw as a bar with a percentage
+
+            folders = export_database(db_path, staging, on_session=tell)
+            if stata:
+                for folder in folders:
+                    write_stata(folder)
+                    bar.update(1)
     except (sqlite3.DatabaseError, EbbtideError, KeyError, ValueError, UnicodeDecodeError) as exc:
         shutil.rmtree(staging, ignore_errors=True)
         click.echo(f"{db_path}: cannot be exported, nothing written ({exc}); allowed: a session database "
