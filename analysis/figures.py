@@ -93,12 +93,14 @@ def round_means(rounds: pd.DataFrame, groups: pd.DataFrame) -> pd.DataFrame:
     a random stop simply has fewer groups in its later rounds (``groups``).
     """
     played = rounds[KEYS + ["treatment", "round", "total_taken", "stock_before"]]
-    lost = []
-    for row in groups[groups["exhausted"]].itertuples():
-        for r in range(int(row.rounds_played) + 1, int(row.horizon_rounds) + 1):
-            lost.append((row.session_id, row.group_id, row.block, row.treatment, r, 0, 0))
-    filled = pd.concat([played, pd.DataFrame(lost, columns=played.columns)], ignore_index=True) if lost \
-        else played
+    emptied = groups[groups["exhausted"]]
+    missing = (emptied["horizon_rounds"] - emptied["rounds_played"]).to_numpy(int)
+    # One row per lost round, built with repeat (no Python loop: a large pool has many such groups).
+    lost = emptied.loc[emptied.index.repeat(missing), KEYS + ["treatment"]].reset_index(drop=True)
+    offsets = np.arange(missing.sum()) - np.repeat(np.cumsum(missing) - missing, missing)
+    lost["round"] = np.repeat(emptied["rounds_played"].to_numpy(int), missing) + 1 + offsets
+    lost["total_taken"], lost["stock_before"] = 0, 0
+    filled = pd.concat([played, lost], ignore_index=True) if len(lost) else played
     table = filled.groupby(["block", "treatment", "round"], sort=True).agg(
         groups=("total_taken", "size"), group_harvest_mean=("total_taken", "mean"),
         stock_mean=("stock_before", "mean"))
