@@ -23,6 +23,7 @@ import numpy as np
 import pandas as pd
 from numpy.typing import ArrayLike
 from scipy import stats
+from statsmodels.stats.multitest import multipletests
 
 # Resampling work is capped at this many drawn values per test; with 25,000 groups
 # that leaves 999 permutations (a p-value resolution of 0.001).
@@ -153,10 +154,40 @@ def treatment_comparisons(groups: pd.DataFrame, outcome: str, rng: np.random.Gen
     for block, cell in groups.groupby("block", sort=True):
         samples = {t: s[outcome].dropna().to_numpy() for t, s in cell.groupby("treatment", sort=True)}
         usable = [t for t, v in samples.items() if v.size >= 2]
+        family = []
         for a, b in itertools.combinations(usable, 2):
             result = compare_two(samples[a], samples[b], rng)
-            rows.append({"block": block, "outcome": outcome, "treatment_x": a, "treatment_y": b,
-                         **asdict(result)})
+            family.append({"block": block, "outcome": outcome, "treatment_x": a, "treatment_y": b,
+                           **asdict(result)})
+        if family:
+            # Holm's step-down correction over the block's pairwise Mann–Whitney tests (statsmodels).
+            adjusted = multipletests([r["p_mann_whitney"] for r in family], method="holm")[1]
+            for row, p in zip(family, adjusted, strict=True):
+                row["p_holm"] = float(p)
+        rows.extend(family)
+    return pd.DataFrame(rows)
+
+
+def omnibus_tests(groups: pd.DataFrame, outcome: str) -> pd.DataFrame:
+    """Kruskal–Wallis test across all treatments of each block (scipy), one value per group.
+
+    Only blocks with at least two treatments of at least two groups each; the
+    pairwise tests of ``treatment_comparisons`` follow it, Holm-adjusted.
+    """
+    rows = []
+    for block, cell in groups.groupby("block", sort=True):
+        samples = [s[outcome].dropna().to_numpy() for _, s in cell.groupby("treatment", sort=True)]
+        samples = [v for v in samples if v.size >= 2]
+        if len(samples) < 2:
+            continue
+        pooled = np.concatenate(samples)
+        if np.all(pooled == pooled[0]):
+            h, p = 0.0, 1.0  # every group alike: no evidence of a difference (scipy would give NaN)
+        else:
+            result = stats.kruskal(*samples)
+            h, p = float(result.statistic), float(result.pvalue)
+        rows.append({"block": block, "outcome": outcome, "treatments": len(samples),
+                     "groups": int(pooled.size), "h": h, "df": len(samples) - 1, "p_kruskal_wallis": p})
     return pd.DataFrame(rows)
 
 

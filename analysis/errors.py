@@ -13,3 +13,9 @@ class PoolError(EbbtideError):
     """Export folders cannot be pooled (different schemas or clashing sessions)."""
 
     code = "cannot_pool"
+
+
+class MixedDesignsError(EbbtideError):
+    """A pooled folder holds sessions of different study designs and no rule says how to compare them."""
+
+    code = "mixed_designs"

@@ -32,15 +32,25 @@ def group_key(table: pd.DataFrame) -> pd.Series:
 def group_outcomes(data: ExportData, seed: int = 1, replicates: int = 2000) -> pd.DataFrame:
     """Per group-block outcomes and benchmarks.
 
-    Columns: rounds_played, group_harvest_total, group_harvest_per_round,
-    share_degraded (share of the block's rounds that ended degraded), crossed
-    (ever flipped to degraded), first_cross_round, threshold, and the benchmark
-    totals over the rounds the group actually played: ``optimum_total`` (the
-    planner's expected take, ``optimal_group_policy`` for that many rounds from
-    the block's starting stock and regime), ``selfish_total`` (everyone takes
-    the maximum, simulated through the model), ``sustainable_total`` (the equal
-    share of the sustainable yield every round), and the ratios of the group's
-    take to the first two.
+    Columns: rounds_played, group_harvest_total, group_harvest_per_round (over
+    the rounds played), share_degraded (share of the block's rounds that ended
+    degraded), threshold, and three separate end outcomes:
+
+    - ``crossed`` / ``first_cross_round``: the regime flipped to degraded;
+    - ``exhausted`` / ``exhausted_round``: the stock after regrowth reached 0;
+    - ``collapsed`` / ``collapse_round``: either of the two, whichever came first.
+
+    Benchmarks use a fixed horizon, ``horizon_rounds``: the rounds the design
+    planned for the block when the stock was exhausted (the lost rounds count
+    as zero harvest), otherwise the rounds played (a random stop or an early
+    end by the facilitator is not the group's doing). Over that horizon:
+    ``group_harvest_per_planned_round``, ``optimum_total`` (the planner's
+    expected take, ``optimal_group_policy`` from the block's starting stock and
+    regime), ``selfish_total`` (everyone takes the maximum, simulated through
+    the model), ``sustainable_total`` (the equal share of the sustainable
+    yield every round), and the ratios of the group's take to the first two.
+    Measured over the rounds played instead, a group that empties the stock in
+    a few rounds would look closer to the optimum than a careful one.
     """
     rounds = data.rounds.sort_values(KEYS + ["round"])
     studies = data.studies()
@@ -61,24 +71,38 @@ def group_outcomes(data: ExportData, seed: int = 1, replicates: int = 2000) -> p
     })
     crossing = rounds[rounds["crossed"]].groupby(KEYS)["round"].min()
     table["first_cross_round"] = crossing.reindex(table.index)
+    emptied = rounds[rounds["stock_after"] <= 0].groupby(KEYS)["round"].min()
+    table["exhausted_round"] = emptied.reindex(table.index)
+    table["exhausted"] = table["exhausted_round"].notna()
+    table["collapse_round"] = table[["first_cross_round", "exhausted_round"]].min(axis=1)
+    table["collapsed"] = table["crossed"] | table["exhausted"]
     table["group_harvest_per_round"] = table["group_harvest_total"] / table["rounds_played"]
     table = table.reset_index()
     table.insert(0, "group", group_key(table))
+    # The design a row belongs to (first 12 hex digits of its study's SHA-256): pooled
+    # sessions of different designs are never compared as one sample.
+    table.insert(1, "design", [studies[s].sha256[:12] for s in table["session_id"]])
+    table["planned_rounds"] = [
+        studies[s].blocks[b - 1].rounds for s, b in zip(table["session_id"], table["block"], strict=True)
+    ]
+    table["horizon_rounds"] = table["rounds_played"].where(
+        ~table["exhausted"], np.maximum(table["rounds_played"], table["planned_rounds"]))
+    table["group_harvest_per_planned_round"] = table["group_harvest_total"] / table["horizon_rounds"]
 
     rng = np.random.default_rng(seed)
     optimum, selfish, sustainable = [], [], []
     # Groups with the same design, length and start share one benchmark computation.
-    starts = table[["session_id", "rounds_played", "start_stock", "start_degraded"]]
+    starts = table[["session_id", "horizon_rounds", "start_stock", "start_degraded"]]
     cache: dict = {}
-    for session, played, start, degraded in starts.itertuples(index=False, name=None):
+    for session, horizon, start, degraded in starts.itertuples(index=False, name=None):
         study = studies[session]
-        key = (study.sha256, int(played), int(start), bool(degraded))
+        key = (study.sha256, int(horizon), int(start), bool(degraded))
         if key not in cache:
             cache[key] = (
-                _policy(study, int(played)).value_at(int(start), bool(degraded)),
-                _selfish(study, int(played), int(start), bool(degraded), int(rng.integers(2**32)),
+                _policy(study, int(horizon)).value_at(int(start), bool(degraded)),
+                _selfish(study, int(horizon), int(start), bool(degraded), int(rng.integers(2**32)),
                          replicates),
-                int(played) * study.seats * min(study.resource.max_harvest, _equal_share(study)),
+                int(horizon) * study.seats * min(study.resource.max_harvest, _equal_share(study)),
             )
         optimum.append(cache[key][0])
         selfish.append(cache[key][1])

@@ -35,6 +35,26 @@ class PanelModels:
     groups: int
     seats: int
     notes: tuple[str, ...] = field(default_factory=tuple)
+    # Base (left-out) level of every categorical term, e.g. {"treatment": "none", "block": "1"}.
+    bases: dict[str, str] = field(default_factory=dict)
+
+    @property
+    def clusters(self) -> int:
+        """Clusters of the OLS standard errors: one per group."""
+        return self.groups
+
+
+def readable_term(term: str, bases: dict[str, str]) -> str:
+    """``C(treatment)[T.exact]`` → "treatment exact (base: none)"; other terms unchanged."""
+    if term.startswith("C(") and ")[T." in term:
+        name, level = term[2:].split(")[T.", 1)
+        return f"{name} {level.rstrip(']')} (base: {bases.get(name, '?')})"
+    return term
+
+
+def _bases(panel: pd.DataFrame, terms: list[str]) -> dict[str, str]:
+    names = [t[2:-1] for t in terms if t.startswith("C(")]
+    return {name: str(sorted(panel[name].unique())[0]) for name in names}
 
 
 def panel_frame(decisions: pd.DataFrame) -> pd.DataFrame:
@@ -151,6 +171,8 @@ def fit_panel_models(decisions: pd.DataFrame, mixed_max_groups: int = MIXED_MODE
         "mixed_p": mixed.pvalues.reindex(names).to_numpy(),
         "ols_coef": ols.params.to_numpy(),
         "ols_cluster_se": ols.bse.to_numpy(),
+        "ols_coef_low": ols.conf_int().iloc[:, 0].to_numpy(),
+        "ols_coef_high": ols.conf_int().iloc[:, 1].to_numpy(),
         "ols_p": ols.pvalues.to_numpy(),
     })
     variance = pd.DataFrame({
@@ -164,6 +186,7 @@ def fit_panel_models(decisions: pd.DataFrame, mixed_max_groups: int = MIXED_MODE
         groups=int(panel["group"].nunique()),
         seats=int(panel["seat"].nunique()),
         notes=tuple(dict.fromkeys(notes)),
+        bases=_bases(panel, terms),
     )
 
 
@@ -172,8 +195,11 @@ def _ols_only(ols, panel: pd.DataFrame, formula: str, notes: list[str]) -> Panel
     table = pd.DataFrame({
         "term": list(ols.params.index), "mixed_coef": nan, "mixed_se": nan, "mixed_p": nan,
         "ols_coef": ols.params.to_numpy(), "ols_cluster_se": ols.bse.to_numpy(),
+        "ols_coef_low": ols.conf_int().iloc[:, 0].to_numpy(),
+        "ols_coef_high": ols.conf_int().iloc[:, 1].to_numpy(),
         "ols_p": ols.pvalues.to_numpy(),
     })
+    terms = [t for t in formula.split(" ~ ")[1].split(" + ")]
     return PanelModels(table=table, formula=formula, observations=int(ols.nobs),
                        groups=int(panel["group"].nunique()), seats=int(panel["seat"].nunique()),
-                       notes=tuple(dict.fromkeys(notes)))
+                       notes=tuple(dict.fromkeys(notes)), bases=_bases(panel, terms))

@@ -19,6 +19,7 @@ from ebbtide.exports.stata import write_stata
 
 from .errors import PoolError
 from .exports_reader import TABLES, read_export, read_package
+from .progress import progress_bar
 
 
 @dataclass(frozen=True)
@@ -84,14 +85,21 @@ def _rows(path: Path) -> list[str]:
     return [line if line.endswith("\n") else line + "\n" for line in lines[1:]]
 
 
-def pool_exports(folders: Sequence[str | Path], out: str | Path, stata: bool = False) -> PoolResult:
+def pool_exports(folders: Sequence[str | Path], out: str | Path, stata: bool = False,
+                 progress: bool | None = None) -> PoolResult:
     """Merge session export folders into ``out`` (tables, descriptor, optional Stata files).
 
     Refuses (``PoolError``, nothing written) folders whose columns or
     ``format_version`` differ from the first folder's, and two folders with the
     same session id but different content. An identical duplicate is skipped
-    with a note.
+    with a note. ``progress`` None shows a bar only on a terminal.
     """
+    total = len(folders) + len(TABLES) + 1 + int(stata)
+    with progress_bar(total, "pool: checking", "step", progress) as bar:
+        return _pool(folders, out, stata, bar)
+
+
+def _pool(folders: Sequence[str | Path], out: str | Path, stata: bool, bar) -> PoolResult:
     if not folders:
         raise PoolError("give at least one export folder to pool")
     out = Path(out)
@@ -110,6 +118,7 @@ def pool_exports(folders: Sequence[str | Path], out: str | Path, stata: bool = F
             earlier = kept[session_id]
             if earlier.fingerprint == folder.fingerprint:
                 notes.append(f"{folder.path}: same content as {earlier.path} (session {session_id}); skipped")
+                bar.update(1)
                 continue
             raise PoolError(
                 f"{folder.path}: carries session {session_id}, as does {earlier.path}, but with different "
@@ -122,6 +131,7 @@ def pool_exports(folders: Sequence[str | Path], out: str | Path, stata: bool = F
                 f"says {session_id!r}"
             )
         kept[session_id] = folder
+        bar.update(1)
     reference = next(iter(kept.values()))
     if out.exists() and (not out.is_dir() or any(out.iterdir())):
         raise PoolError(f"{out}: already exists and is not an empty folder; choose a new folder for --out")
@@ -130,23 +140,32 @@ def pool_exports(folders: Sequence[str | Path], out: str | Path, stata: bool = F
     # so a failure part-way leaves nothing behind.
     staging = Path(tempfile.mkdtemp(prefix=f".{out.name}-", dir=out.parent))
     try:
+        bar.set_description("pool: writing")
         for name in TABLES:
             with (staging / f"{name}.csv").open("w", encoding="utf-8", newline="") as handle:
                 handle.write(",".join(reference.headers[name]) + "\n")
                 for folder in kept.values():
                     handle.writelines(_rows(folder.path / f"{name}.csv"))
+            bar.update(1)
         package = _pooled_descriptor(reference.package, kept)
         (staging / "datapackage.json").write_text(json.dumps(package, indent=2, ensure_ascii=False) + "\n",
                                                   encoding="utf-8")
         read_export(staging)  # keys must hold across sessions too (e.g. the same seat twice)
+        bar.update(1)
         if stata:
             write_stata(staging)
+            bar.update(1)
         if out.exists():
             out.rmdir()
         staging.rename(out)
     except BaseException:
         shutil.rmtree(staging, ignore_errors=True)
         raise
+    designs = {str(f.package["ebbtide"].get("study_sha256", "")) for f in kept.values()}
+    if len(designs) > 1:
+        notes.append(f"the pool holds {len(designs)} study designs (each session's study SHA-256 is in "
+                     "datapackage.json); ebbtide report compares them only with --by-design, within "
+                     "each design")
     return PoolResult(out, tuple(kept), tuple(notes))
 
 

@@ -21,27 +21,33 @@ def harvest_summary(groups: pd.DataFrame, decisions: pd.DataFrame, rounds: pd.Da
 
     Individual harvest is the units a seat took in a round (all seat-rounds);
     group harvest is the group's take per round, averaged per group first so
-    that every group counts once. Ratios are the group's take over the block
-    divided by the social optimum and by the selfish benchmark over the rounds
-    it played. ``share_degraded_rounds`` counts group-rounds that ended in the
-    degraded regime; ``collapse_incidence`` is the share of groups that ever
-    crossed; ``first_cross_round_median`` is over the groups that crossed.
+    that every group counts once; ``group_harvest_per_planned_round`` spreads
+    the group's take over the fixed horizon (exhausted rounds count as zero).
+    Ratios are the group's take divided by the social optimum and by the
+    selfish benchmark over that horizon. ``share_degraded_rounds`` counts
+    group-rounds that ended in the degraded regime. Three end outcomes, kept
+    apart: ``flip_incidence`` (the regime flipped), ``exhaustion_incidence``
+    (the stock reached 0) and ``collapse_incidence`` (either);
+    ``collapse_round_median`` is over the groups that collapsed.
     """
     rows = []
     for (block, name, treatment), cell in groups.groupby(CELL, sort=True):
         seats = decisions[(decisions["block"] == block) & (decisions["treatment"] == treatment)]
         played = rounds[(rounds["block"] == block) & (rounds["treatment"] == treatment)]
-        crossed = cell[cell["crossed"]]
+        collapsed = cell[cell["collapsed"]]
         rows.append({
             "block": block, "block_name": name, "treatment": treatment, "groups": len(cell),
             **_spread(seats["harvest_taken"], "individual_harvest"),
             **_spread(cell["group_harvest_per_round"], "group_harvest_per_round"),
+            "group_harvest_per_planned_round_mean": cell["group_harvest_per_planned_round"].mean(),
             "ratio_to_optimum_mean": cell["ratio_to_optimum"].mean(),
             "ratio_to_selfish_mean": cell["ratio_to_selfish"].mean(),
             "share_degraded_rounds": float((played["regime_after"] == "degraded").mean()),
-            "collapse_incidence": float(cell["crossed"].mean()),
-            "first_cross_round_median": (
-                crossed["first_cross_round"].median() if len(crossed) else float("nan")
+            "flip_incidence": float(cell["crossed"].mean()),
+            "exhaustion_incidence": float(cell["exhausted"].mean()),
+            "collapse_incidence": float(cell["collapsed"].mean()),
+            "collapse_round_median": (
+                collapsed["collapse_round"].median() if len(collapsed) else float("nan")
             ),
         })
     return pd.DataFrame(rows)

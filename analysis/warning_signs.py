@@ -29,7 +29,8 @@ from .group_outcomes import KEYS
 MIN_PATH = 6
 DEFINITIONS = (
     f"Indicators on paths detrended with a Gaussian kernel (bandwidth max(2, length/10) rounds), "
-    f"rolling window max(3, length/2), values rounded to 1e-{TIE_DECIMALS} before ranking (ties honoured). "
+    f"rolling window max(3, length/2), values rounded to {TIE_DECIMALS} decimal places before ranking "
+    "(ties honoured). "
     "Crossing paths end at the first crossing; controls are paths of groups that never crossed, "
     "cut to the median length of the crossing paths in the same block and treatment."
 )

@@ -184,7 +184,8 @@ def round_outcomes(step: RoundStep) -> list[RoundOutcome]:
 
 
 def stream_pilot(
-    study: Study, groups: int, seed: int, strategy: Model | str, on_outcome: Callable[[RoundOutcome], None]
+    study: Study, groups: int, seed: int, strategy: Model | str, on_outcome: Callable[[RoundOutcome], None],
+    on_round: Callable[[RoundStep], None] | None = None,
 ) -> str:
     """Play groups 0..``groups``-1 as ``run_pilot`` does, handing each outcome to ``on_outcome``
     in the same order instead of keeping them all; return the model's name."""
@@ -195,13 +196,19 @@ def stream_pilot(
     def record(step: RoundStep) -> None:
         for outcome in round_outcomes(step):
             on_outcome(outcome)
+        if on_round is not None:
+            on_round(step)  # e.g. a progress bar
 
     play(study, model, seed, np.arange(groups), record, live_draws=True)
     return model.name
 
 
-def run_pilot(study: Study, groups: int, seed: int, strategy: Model | str) -> PilotRun:
-    """Play groups 0..``groups``-1 through every block of ``study`` with a behaviour model."""
+def run_pilot(study: Study, groups: int, seed: int, strategy: Model | str,
+              on_round: Callable[[RoundStep], None] | None = None) -> PilotRun:
+    """Play groups 0..``groups``-1 through every block of ``study`` with a behaviour model.
+
+    ``on_round`` (optional) sees each round step after it is recorded, e.g. to show progress.
+    """
     outcomes: list[RoundOutcome] = []
-    name = stream_pilot(study, groups, seed, strategy, outcomes.append)
+    name = stream_pilot(study, groups, seed, strategy, outcomes.append, on_round)
     return PilotRun(study, seed, groups, name, tuple(outcomes))

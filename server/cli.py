@@ -99,6 +99,7 @@ def check(study_file: str) -> None:
 def pilot(study_file: str, groups: int, seed: int, strategy: str, model_spec: str | None,
           out_dir: str) -> None:
     """Simulate groups offline through STUDY_FILE and write the export tables."""
+    from ebbtide.analysis.progress import progress_bar
     from ebbtide.exports.build import StreamedExport
     from ebbtide.game_logic.pilot import stream_pilot
 
@@ -119,8 +120,15 @@ def pilot(study_file: str, groups: int, seed: int, strategy: str, model_spec: st
         if outcome.crossed:
             ever_crossed.add(outcome.group)
 
-    stream_pilot(study, groups, seed, model, write)
-    export.finish(seed, "pilot")
+    # One step per planned round of play (blocks that end early jump ahead), one to write.
+    with progress_bar(study.total_rounds + 1, "pilot: playing", "round") as bar:
+        starts = [sum(b.rounds for b in study.blocks[:i]) for i in range(len(study.blocks))]
+        stream_pilot(study, groups, seed, model, write,
+                     on_round=lambda step: bar.update(starts[step.block] + step.round - bar.n))
+        bar.set_description("pilot: writing")
+        bar.update(study.total_rounds - bar.n)
+        export.finish(seed, "pilot")
+        bar.update(1)
     click.echo(
         f"pilot: {groups} groups, strategy {strategy}, {group_rounds} group-rounds; "
         f"{len(ever_crossed)} group(s) crossed the threshold at least once"
@@ -156,14 +164,16 @@ def pool(folders: tuple[str, ...], out_dir: str, stata: bool) -> None:
               help="Seed of the resampling (bootstrap, permutation test, selfish benchmark).")
 @click.option("--plan", "plan_file", type=click.Path(dir_okay=False), default=None,
               help="Pre-analysis plan written by `ebbtide plan`: label tests confirmatory or exploratory.")
-def report(folder: str, out_file: str, seed: int, plan_file: str | None) -> None:
+@click.option("--by-design", is_flag=True,
+              help="For a pool of several study designs: compute every table and test within each design.")
+def report(folder: str, out_file: str, seed: int, plan_file: str | None, by_design: bool) -> None:
     """Write a self-contained HTML analysis report of the export FOLDER."""
     from ebbtide.analysis.plan import read_plan
     from ebbtide.analysis.report import write_report
 
     try:
         plan = read_plan(plan_file) if plan_file else None
-        written = write_report(folder, out_file, seed=seed, plan=plan)
+        written = write_report(folder, out_file, seed=seed, plan=plan, by_design=by_design)
     except (EbbtideError, ValueError) as exc:
         click.echo(f"report not written: {exc}", err=True)
         sys.exit(2)
@@ -510,6 +520,7 @@ def export(db_path: str, out_dir: str, stata: bool) -> None:
     import sqlite3
     import tempfile
 
+    from ebbtide.analysis.progress import progress_bar
     from ebbtide.exports.stata import write_stata
     from ebbtide.game_logic.errors import EbbtideError
     from ebbtide.server.store.export import export_database
@@ -528,10 +539,18 @@ def export(db_path: str, out_dir: str, stata: bool) -> None:
     # Written beside --out and renamed at the end: a damaged database leaves nothing behind.
     staging = Path(tempfile.mkdtemp(prefix=f".{out.name}-", dir=out.parent))
     try:
-        folders = export_database(db_path, staging)
-        if stata:
-            for folder in folders:
-                write_stata(folder)
+        with progress_bar(None, "export: sessions", "session") as bar:
+
+            def tell(done: int, total: int) -> None:
+                bar.total = total * (2 if stata else 1)
+                bar.update(done - bar.n)
+                bar.refresh()  # the total is known only now: redraw as a bar with a percentage
+
+            folders = export_database(db_path, staging, on_session=tell)
+            if stata:
+                for folder in folders:
+                    write_stata(folder)
+                    bar.update(1)
     except (sqlite3.DatabaseError, EbbtideError, KeyError, ValueError, UnicodeDecodeError) as exc:
         shutil.rmtree(staging, ignore_errors=True)
         click.echo(f"{db_path}: cannot be exported, nothing written ({exc}); allowed: a session database "

@@ -11,7 +11,7 @@ from numpy.testing import assert_allclose
 from scipy import stats
 
 from ebbtide.analysis.comparisons import compare_paired, compare_two
-from ebbtide.analysis.panel import fit_panel_models, panel_frame
+from ebbtide.analysis.panel import fit_panel_models, panel_frame, readable_term
 from ebbtide.analysis.survival import good_regime_survival, kaplan_meier
 
 
@@ -77,8 +77,9 @@ def test_log_rank_matches_lifelines_textbook_value_and_hand_computation():
     leukaemia = load_leukemia()
     groups = pd.DataFrame({
         "treatment": np.where(leukaemia["Rx"] == 0, "6-MP", "placebo"),
-        "crossed": leukaemia["status"].astype(bool),
-        "first_cross_round": leukaemia["t"].astype(float),
+        "group": [f"patient{i}" for i in range(len(leukaemia))], "block": 1,  # independent subjects
+        "collapsed": leukaemia["status"].astype(bool),
+        "collapse_round": leukaemia["t"].astype(float),
         "rounds_played": leukaemia["t"],
     })
     result = good_regime_survival(groups, has_threshold=True)
@@ -101,10 +102,11 @@ def test_log_rank_matches_lifelines_textbook_value_and_hand_computation():
 
 
 def test_survival_not_applicable_without_threshold_or_crossings():
-    groups = pd.DataFrame({"treatment": ["none", "exact"], "crossed": [False, False],
-                           "first_cross_round": [np.nan, np.nan], "rounds_played": [10, 10]})
+    groups = pd.DataFrame({"treatment": ["none", "exact"], "group": ["a", "b"], "block": [1, 1],
+                           "collapsed": [False, False],
+                           "collapse_round": [np.nan, np.nan], "rounds_played": [10, 10]})
     assert "no threshold" in good_regime_survival(groups, has_threshold=False).not_applicable
-    assert "no group crossed" in good_regime_survival(groups, has_threshold=True).not_applicable
+    assert "no group collapsed" in good_regime_survival(groups, has_threshold=True).not_applicable
 
 
 def tiny_decisions(seed=3, groups=6, seats=3, rounds=5):
@@ -159,3 +161,10 @@ def test_cluster_robust_errors_match_the_sandwich_formula_by_hand():
     terms = ["Intercept", "C(treatment)[T.none]", "round", "lagged_stock", "others_lag"]
     assert_allclose(table.loc[terms, "ols_coef"], beta, rtol=1e-9)
     assert_allclose(table.loc[terms, "ols_cluster_se"], np.sqrt(np.diag(covariance)), rtol=1e-9)
+    # 95% Wald interval with the normal quantile (statsmodels' cluster covariance uses z, not t).
+    half = stats.norm.ppf(0.975) * np.sqrt(np.diag(covariance))
+    assert_allclose(table.loc[terms, "ols_coef_low"], beta - half, rtol=1e-9)
+    assert_allclose(table.loc[terms, "ols_coef_high"], beta + half, rtol=1e-9)
+    # The base of the treatment dummy is the level the design matrix above leaves out.
+    assert models.bases == {"treatment": "exact"} and models.clusters == g
+    assert readable_term("C(treatment)[T.none]", models.bases) == "treatment none (base: exact)"

@@ -46,7 +46,7 @@ def test_report_of_a_pilot_where_nobody_crossed_keeps_curves_and_explains_the_te
     assert not data.rounds["crossed"].any()
     sections = sections_by_title(build_report(data))
     survival = sections["Survival of the good regime"]
-    assert "no group crossed" in survival.reading and len(survival.figures) == 1
+    assert "no group collapsed" in survival.reading and len(survival.figures) == 1
     assert sections["Block comparisons within groups"].not_applicable is None
 
 
@@ -61,7 +61,7 @@ def test_written_report_is_self_contained_and_writes_csv_tables(tmp_path):
     html = files.html.read_text(encoding="utf-8")
     assert not re.search(r"(src|href)\s*=\s*[\"']?(https?:|//)", html)
     assert "http://" not in html and "https://" not in html
-    assert html.count("<img ") == 3
+    assert html.count("<img ") == 4  # harvest box plots, round means, stock paths, survival curves
     assert "not a\nforecast" in html or "not a forecast" in html
     names = {p.name for p in files.tables}
     assert {"r-summary.csv", "r-group_outcomes.csv", "r-regression.csv", "r-block_comparisons.csv"} <= names

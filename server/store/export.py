@@ -7,6 +7,7 @@ and are left out; their decisions stay in the log.
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from pathlib import Path
 
 from ebbtide.exports.build import tables_from_outcomes
@@ -38,17 +39,23 @@ def export_session(store: Store, session_id: str, out_dir: str | Path) -> Path:
     return write_export(out_dir, state.study, session_id, state.seed, EXPORT_SOURCE, tables)
 
 
-def export_database(db_path: str | Path, out_dir: str | Path) -> list[Path]:
+def export_database(db_path: str | Path, out_dir: str | Path,
+                    on_session: Callable[[int, int], None] | None = None) -> list[Path]:
     """Export every session of a database.
 
     One session is written directly into ``out_dir``; several go into one
-    subfolder each, named after the session id.
+    subfolder each, named after the session id. ``on_session(done, total)``
+    hears of the progress: once before the first session, then after each one.
     """
     store = Store(db_path)
     try:
         ids = [record.session_id for record in store.sessions()]
-        if len(ids) == 1:
-            return [export_session(store, ids[0], out_dir)]
-        return [export_session(store, sid, Path(out_dir) / sid) for sid in ids]
+        tell = on_session or (lambda _done, _total: None)
+        tell(0, len(ids))
+        written = []
+        for sid in ids:
+            written.append(export_session(store, sid, out_dir if len(ids) == 1 else Path(out_dir) / sid))
+            tell(len(written), len(ids))
+        return written
     finally:
         store.close()
