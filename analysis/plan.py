@@ -162,8 +162,13 @@ def check_plan(plan: Plan, data: ExportData) -> None:
             raise PlanForAnotherStudy(plan, study.session.id, info.study_sha256)
 
 
+# The report measures harvest over the planned horizon (rounds lost to an empty stock count as
+# zero); a plan's harvest outcome is that same comparison.
+_SAME_OUTCOME = {"group_harvest_per_round": "group_harvest_per_planned_round"}
+
+
 def _key(kind: str, block, x, y, outcome: str, test: str) -> tuple:
-    return (kind, str(block), frozenset((str(x), str(y))), outcome, test)
+    return (kind, str(block), frozenset((str(x), str(y))), _SAME_OUTCOME.get(outcome, outcome), test)
 
 
 def _planned_keys(plan: Plan) -> set[tuple]:

@@ -105,7 +105,7 @@ def test_changed_study_file_and_fewer_groups_are_listed_as_departures(tmp_path):
     labels = report.tables["test_labels"]
     # A within-subject design plans the Wilcoxon test of block 2 against block 1 (docs/analysis.md).
     assert labels[labels["label"] == "confirmatory"]["test"].tolist() == [
-        "block 2 vs block 1 (group_harvest_per_round, wilcoxon)"]
+        "block 2 vs block 1 (group_harvest_per_planned_round, wilcoxon)"]
 
 
 def test_plan_takes_power_from_a_power_file_and_refuses_one_without_the_planned_groups(tmp_path):
