@@ -23,6 +23,7 @@ from typing import Any
 from xml.sax.saxutils import escape, quoteattr
 
 from .gauge import BLUE, FONT, INK, ORANGE, PAPER, VERMILLION, merge_labels
+from .numbers import number_text
 
 
 @dataclass(frozen=True)
@@ -61,8 +62,8 @@ DEFAULT_LABELS = {
 
 
 def _number(value: float) -> str:
-    value = float(value)
-    return str(int(round(value))) if abs(value - round(value)) < 1e-9 else f"{value:.1f}"
+    """Whole numbers without a decimal sign, others to one decimal, in the caller's language."""
+    return number_text(value)
 
 
 def _plain_text(x: float, y: float, content: str, *, size: int = 15, anchor: str = "start",
