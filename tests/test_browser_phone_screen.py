@@ -27,7 +27,7 @@ def _inside(box, width, height) -> bool:
         box["x"] + box["width"] <= width and box["y"] + box["height"] <= height
 
 
-@pytest.mark.parametrize("language", ["en", "es"])
+@pytest.mark.parametrize("language", ["en", "es", "fr"])
 @pytest.mark.parametrize("size", SIZES, ids=lambda s: f"{s[0]}x{s[1]}")
 def test_choice_confirm_and_result_fit_one_screen(start_server, demo_study, browser, size, language):
     width, height = size
@@ -44,16 +44,13 @@ def test_choice_confirm_and_result_fit_one_screen(start_server, demo_study, brow
         page.locator("#result").wait_for(state="visible")
         page.wait_for_function("document.getElementById('chooser').hidden === false")
         page.evaluate("window.scrollTo(0, 0)")  # as a participant sees it when the round opens
-        print(page.evaluate('''Array.from(document.querySelectorAll("header, #game > *")).map(
-            e => e.id + e.className + ":" + Math.round(e.getBoundingClientRect().top) + "+" +
-            Math.round(e.getBoundingClientRect().height)).join(" ")'''))
         boxes = {name: page.locator(sel).bounding_box()
                  for name, sel in [("stepper", ".stepper"), ("confirm", "#confirm"), ("result", "#result")]}
-        print(size, language, boxes)
         ARTIFACTS.mkdir(exist_ok=True)
         page.screenshot(path=str(ARTIFACTS / f"phone-round-{language}-{width}x{height}.png"))
         for name, box in boxes.items():
             assert _inside(box, width, height), f"{name} at {box} is not inside {width}x{height}"
+        assert page.evaluate("document.documentElement.scrollWidth") <= width  # nothing sticks out sideways
     finally:
         page.close()
         context.close()
