@@ -40,6 +40,7 @@ Band = Literal[BANDS]
 Trend = Literal[TRENDS]
 Reason = Literal["low_stock", "falling_fast", "slow_recovery"]
 Status = Literal["setup", "running", "paused", "ended"]
+BlockEnd = Literal["last round", "random stop", "exhausted"]  # rounds.advance's end reasons
 
 
 class _Sealed(BaseModel):
@@ -121,6 +122,8 @@ class PhoneView(_Sealed):
     unit: str
     points_total: Points
     block_over: bool
+    # Why the block ended, once it has: "exhausted" and "random stop" end it before its length.
+    block_end: BlockEnd | None = None
     session_over: bool
     danger: Danger
     rounds_in_block: PositiveInt | None = None
@@ -174,6 +177,9 @@ class PhoneSnapshot(_Sealed):
     missed_last_round: bool = False
     talk_remaining: Annotated[float, Field(ge=0)] | None = None  # seconds; None outside talk blocks
     view: PhoneView
+    # Cash so far (show-up fee included, ``money.earnings``), only where the study pays cash.
+    cash_so_far: Decimal | None = None
+    currency: str | None = None
     gauge_svg: str  # drawn from ``view`` only
     debrief: PhoneDebrief | None = None  # only after the facilitator's reveal
 
@@ -212,10 +218,13 @@ def phone_snapshot(
     """Seat ``seat`` of group ``group`` (both 0-based): its whole screen state, validated."""
     study = state.study
     progress = state.groups[group]
-    points = earnings(progress.units[seat], study.payment).points
-    raw_view = participant_view(study, progress.state, seat, progress.last_outcome, points)
+    money = earnings(progress.units[seat], study.payment)
+    raw_view = participant_view(study, progress.state, seat, progress.last_outcome, money.points)
     label = study.block_label(progress.state.block, language)
-    view = PhoneView.model_validate({**raw_view, "block_label": label})
+    ended = progress.state.end_reason if progress.state.block_over else None
+    view = PhoneView.model_validate({**raw_view, "block_label": label, "unit": study.unit_label(language),
+                                     "block_end": ended})
+    pays_cash = study.payment.exchange_rate > 0
     debrief = None
     if state.debrief_revealed:
         outcomes = finished_outcomes(progress.outcomes, progress.state)
@@ -224,7 +233,7 @@ def phone_snapshot(
             facts = DebriefFacts.model_validate(raw)
             parts.append(DebriefPart(
                 **dict(facts),
-                sentence=painter.debrief_sentence(facts, study.resource.unit),
+                sentence=painter.debrief_sentence(facts, study.unit_label(language)),
                 svg=painter.debrief_chart(facts, study.resource.capacity),
             ))
         debrief = PhoneDebrief(blocks=tuple(parts), caution=painter.caution())
@@ -239,6 +248,8 @@ def phone_snapshot(
         missed_last_round=progress.last_outcome is not None and progress.sources[-1][seat] == CLOSED,
         talk_remaining=None if talk_remaining is None else round(talk_remaining, 1),
         view=view,
+        cash_so_far=money.cash if pays_cash else None,
+        currency=study.payment.currency if pays_cash else None,
         gauge_svg=painter.gauge(view),
         debrief=debrief,
     )

@@ -143,6 +143,8 @@ class ResourceSpec(_Frozen):
     """The shared stock: capacity, start, per-seat harvest cap and regrowth."""
 
     unit: Annotated[str, Field(min_length=1, max_length=30)] = "units"
+    # The unit as participants read it, per language (``unit`` when a language has none).
+    unit_label: ParticipantLabel | None = None
     capacity: Annotated[int, Field(ge=10, le=100_000)] = 100
     initial_stock: Annotated[int, Field(ge=1)] = 80
     max_harvest: Annotated[int, Field(ge=1, le=100)] = 10
@@ -340,6 +342,7 @@ class Study(_Frozen):
         names = [b.name for b in self.blocks]
         if len(set(names)) != len(names):
             raise ValueError(f"block names must be unique, got {names}")
+        _check_label_languages("resource.unit_label", self.resource.unit_label, self.session.languages)
         for i, block in enumerate(self.blocks):
             _check_label_languages(f"blocks.{i}.label", block.label, self.session.languages)
         support = self.threshold.support
@@ -376,6 +379,10 @@ class Study(_Frozen):
         """
         return _pick(self.blocks[block].label, language, self.session.language)
 
+    def unit_label(self, language: str) -> str:
+        """The resource's unit as participants read it in ``language``; else ``resource.unit``."""
+        return _pick(self.resource.unit_label, language, self.session.language) or self.resource.unit
+
 
 def _pick(label: ParticipantLabel | None, language: str, fallback: str) -> str | None:
     texts = label_texts(label)
@@ -386,6 +393,7 @@ def participant_text_warnings(study: Study) -> list[str]:
     """Participant-facing labels that would tell the design, or that lack an offered language."""
     labelled = [("session.label", study.session.label)]
     labelled += [(f"blocks.{i}.label", b.label) for i, b in enumerate(study.blocks)]
+    labelled.append(("resource.unit_label", study.resource.unit_label))
     researcher_names = [b.name for b in study.blocks]
     warnings = []
     for where, label in labelled:

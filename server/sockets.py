@@ -31,7 +31,8 @@ from .console.access import COOKIE_KEY, logins, rehearsal_token, request_login
 from .console.refresh import refresh_for
 from .frame_guard import RESERVED_EVENTS
 from .messages import ConsoleAuth, PhoneAuth, from_validation_error
-from .phone.view import remember_language
+from .phone.refusals import phone_refusal
+from .phone.view import remember_language, seat_language
 from .registry import LiveSession, Registry
 from .web import code_guard
 
@@ -143,6 +144,7 @@ def edge(event: str, model: type[BaseModel], role: str) -> Callable:
     def wrap(handler: Callable) -> Callable:
         @functools.wraps(handler)
         def inner(*args):
+            conn = None
             try:
                 conn = _admit(event, role)
                 if len(args) > 1:
@@ -160,6 +162,8 @@ def edge(event: str, model: type[BaseModel], role: str) -> Callable:
                 log.exception("socket event %r failed unexpectedly", event)
                 refusal = ServerError()
             body = refusal.as_event(event)
+            if conn is not None and conn.role == "phone":  # a phone reads it in its seat's language
+                body = phone_refusal(body, seat_language(registry().current, conn.group, conn.seat))
             emit("problem", body)
             return body
 

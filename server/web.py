@@ -52,6 +52,12 @@ def healthz():
     return {"ok": True, "session_id": registry().current_id}
 
 
+@bp.get("/favicon.ico")
+def favicon():
+    """Browsers ask for this by themselves; a small drawing from static, never a 404 in the log."""
+    return current_app.send_static_file("favicon.svg"), 200, {"Content-Type": "image/svg+xml"}
+
+
 
 def _refuse_forged():
     live = live_session()

@@ -156,7 +156,8 @@
     if (g.talk_remaining !== null && g.talk_remaining !== undefined && g.talk_remaining > 0) {
       var talk = el("div", null, "buttons talk-controls");
       // The server sends seconds left; shown as a clock time, which stays true without ticking.
-      var until = new Date(Date.now() + g.talk_remaining * 1000).toLocaleTimeString();
+      // In the page's language (CLDR through the browser): "14:05:30" on a Spanish console, not "2:05:30 PM".
+      var until = new Date(Date.now() + g.talk_remaining * 1000).toLocaleTimeString(document.documentElement.lang);
       talk.appendChild(el("p", fmt("talk_left", { time: until }), "state-line"));
       var more = el("button", S.talk_more); more.type = "button";
       more.addEventListener("click", function () { act("console_talk_extend", { group: g.group }); });

@@ -49,9 +49,8 @@
   function applyMode() {
     document.body.classList.toggle("pictorial", pictorial);
     var toggle = $("picture-toggle");
-    toggle.textContent = pictorial ? S.words : S.pictures;
-    toggle.setAttribute("aria-pressed", pictorial ? "true" : "false");
-    toggle.title = S.picture_mode;
+    // Names the mode a tap switches to; it is an action, not a pressed state.
+    toggle.textContent = pictorial ? S.show_words : S.show_pictures;
   }
   $("picture-toggle").hidden = false;
   $("picture-toggle").addEventListener("click", function () {
@@ -73,7 +72,7 @@
 
   var snap = null;
   var lastSeq = -1;
-  var choice = 0;
+  var choice = null;  // nothing chosen yet: 0 is chosen on purpose, never by default
   var roundKey = "";
   var talkEndsAt = null;  // this phone's clock: when the talk pause ends
   var talkTimer = null;
@@ -210,12 +209,17 @@
     return talkEndsAt === null ? 0 : Math.max(0, Math.ceil((talkEndsAt - Date.now()) / 1000));
   }
 
-  $("less").addEventListener("click", function () { choice = Math.max(0, choice - 1); renderChoice(); });
-  $("more").addEventListener("click", function () {
-    choice = Math.min(snap ? snap.view.max_harvest : 0, choice + 1); renderChoice();
+  // −5, −, +, +5: from no choice, a step down lands on 0 and a step up on the step's size.
+  ["less5", "less", "more", "more5"].forEach(function (id) {
+    $(id).addEventListener("click", function (e) {
+      var step = Number(e.currentTarget.dataset.step);
+      var max = snap ? snap.view.max_harvest : 0;
+      choice = Math.max(0, Math.min(max, (choice === null ? 0 : choice) + step));
+      renderChoice();
+    });
   });
   $("confirm").addEventListener("click", function () {
-    if (!snap || pending() || talkLeft() > 0) return;
+    if (!snap || pending() || talkLeft() > 0 || choice === null) return;
     var v = snap.view;
     var decision = { decision_id: randomId(), block: v.block, round: v.round, harvest: choice };
     setPending(decision);
@@ -252,14 +256,16 @@
   function renderChoice() {
     var max = snap ? snap.view.max_harvest : 0;
     var talking = talkLeft() > 0;
-    $("choice").textContent = choice;
-    $("less").disabled = talking || choice <= 0;
-    $("more").disabled = talking || choice >= max;
-    $("confirm").disabled = talking;
+    var none = choice === null;
+    $("choice").textContent = none ? "\u2013" : num(choice);
+    $("less").disabled = $("less5").disabled = talking || choice === 0;
+    $("more").disabled = $("more5").disabled = talking || choice >= max;
+    $("confirm").disabled = talking || none;
+    var words = none ? S.choose_first : fmt("confirm", { n: num(choice) });
     // Pictures mode: a tick and the number; the full words stay for screen readers.
-    $("confirm").textContent = pictorial ? "\u2713 " + choice : fmt("confirm", { n: choice });
-    $("confirm").setAttribute("aria-label", fmt("confirm", { n: choice }));
-    $("range").textContent = "0 – " + max + " " + (snap ? snap.view.unit : "");
+    $("confirm").textContent = pictorial && !none ? "\u2713 " + num(choice) : words;
+    $("confirm").setAttribute("aria-label", words);
+    $("range").textContent = "0 – " + num(max) + " " + (snap ? snap.view.unit : "");
     buildPicker(max);
     Array.prototype.forEach.call($("unit-picker").children, function (b) {
       var n = Number(b.dataset.n);
@@ -288,9 +294,9 @@
 
   function dangerText(d) {
     if (d.kind === "vague") return S.danger_vague;
-    if (d.kind === "range") return fmt("danger_range", { low: d.low, high: d.high });
-    if (d.kind === "exact") return fmt("danger_exact", { level: d.level });
-    if (d.kind === "risk") return fmt("danger_risk", { level: d.level, percent: Math.round(d.flip_probability * 100) });
+    if (d.kind === "range") return fmt("danger_range", { low: num(d.low), high: num(d.high) });
+    if (d.kind === "exact") return fmt("danger_exact", { level: num(d.level) });
+    if (d.kind === "risk") return fmt("danger_risk", { level: num(d.level), percent: Math.round(d.flip_probability * 100) });
     if (d.kind === "signal") return S.signal_note;
     return "";
   }
@@ -310,6 +316,26 @@
       li.textContent = S["reason_" + r] || r;
       list.appendChild(li);
     });
+  }
+
+  // Numbers as the page's language writes them ("40,4" in Spanish); the server sends plain digits.
+  var numberFormat = new Intl.NumberFormat(document.documentElement.lang || undefined, { maximumFractionDigits: 2 });
+  function num(value) {
+    var n = Number(value);
+    return isFinite(n) && String(value) !== "" ? numberFormat.format(n) : String(value);
+  }
+
+  // The first round of a new part says so (the stock starts again, the information may change);
+  // a part that ended before its length says why.
+  function renderBlockNews(v) {
+    var text = "";
+    if (v.block_over && v.block_end === "exhausted") text = S.block_end_exhausted;
+    else if (v.block_over && v.block_end === "random stop") text = S.block_end_random;
+    else if (!v.block_over && v.block > 1 && v.round === 1 && !v.last_round) {
+      text = fmt("block_new", { block: v.block, stock: num(v.stock), unit: v.unit });
+    }
+    $("block-news").textContent = text;
+    $("block-news").hidden = !text;
   }
 
   function fact(list, label, value) {
@@ -335,16 +361,17 @@
   function renderResult(last) {
     $("result").hidden = !last;
     if (!last) return;
-    $("result-title").textContent = S.last_round + " (" + last.round + ")";
+    $("result-title").textContent = fmt("result_of_round", { round: last.round });
     var list = $("result-list");
     list.textContent = "";
     // A round the facilitator closed before this seat's choice arrived: not "you asked for 0".
-    fact(list, S.you_asked, snap.missed_last_round ? S.no_choice : last.asked);
-    fact(list, S.you_got, last.taken + " (+" + last.points + ")");
-    if (last.others) fact(list, S.others_took, last.others.join(", "));
-    fact(list, S.group_took, last.group_total);
-    fact(list, S.regrew, last.regrowth);
-    fact(list, S.now_left, last.stock_after);
+    var unit = snap.view.unit;
+    fact(list, S.you_asked, snap.missed_last_round ? S.no_choice : num(last.asked) + " " + unit);
+    fact(list, S.you_got, fmt("got_points", { n: num(last.taken), unit: unit, points: num(last.points) }));
+    if (last.others) fact(list, S.others_took, last.others.map(num).join(", "));
+    fact(list, S.group_took, num(last.group_total) + " " + unit);
+    fact(list, S.regrew, num(last.regrowth));
+    fact(list, S.now_left, num(last.stock_after));
     $("others-note").textContent = S.others_none;
     $("others-note").hidden = !!last.others;
 
@@ -408,7 +435,7 @@
       chart.innerHTML = b.svg;  // drawn and escaped by the server, after the facilitator's reveal
       var level = document.createElement("p");
       if (b.threshold != null) {  // absent when the study has no danger level
-        level.textContent = fmt("debrief_level", { level: b.threshold, recovery: b.recovery_level }) + " " +
+        level.textContent = fmt("debrief_level", { level: num(b.threshold), recovery: num(b.recovery_level) }) + " " +
           (b.crossed_round ? fmt("debrief_crossed", { round: b.crossed_round }) : S.debrief_never);
       }
       var p = document.createElement("p");
@@ -432,11 +459,14 @@
     $("danger").textContent = danger;
     $("danger").hidden = !danger;
     renderReasons(v.danger);
-    $("points").textContent = v.points_total;
-    $("points").setAttribute("aria-label", S.your_points + ": " + v.points_total);
+    $("points").textContent = num(v.points_total);
+    $("points").setAttribute("aria-label", S.your_points + ": " + num(v.points_total));
+    $("cash").hidden = snap.cash_so_far == null;
+    if (snap.cash_so_far != null) $("cash").textContent = fmt("cash_so_far", { amount: num(snap.cash_so_far), currency: snap.currency });
+    renderBlockNews(v);
 
     var key = v.block + "." + v.round;
-    if (key !== roundKey) { roundKey = key; choice = 0; }
+    if (key !== roundKey) { roundKey = key; choice = null; }
     var mine = pending();
     var status = "";
     var canChoose = false;
@@ -444,7 +474,7 @@
     else if (snap.status === "setup") status = S.not_started;
     else if (snap.status === "paused") status = S.paused;
     else if (snap.waiting_for_block || v.block_over) status = S.waiting_block;
-    else if (snap.decided) status = fmt("recorded", { n: snap.my_harvest });
+    else if (snap.decided) status = fmt("recorded", { n: num(snap.my_harvest), unit: v.unit });
     else if (mine) status = retrying ? S.retrying : S.sending;
     else canChoose = true;
     $("status").textContent = status;

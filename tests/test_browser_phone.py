@@ -27,10 +27,10 @@ def test_phone_joins_by_card_submits_a_harvest_and_sees_the_result(start_server,
         assert page.locator("#choice").inner_text() == "4"
         page.locator("#less").tap()
         page.locator("#confirm").tap()
-        page.get_by_text("Your choice is recorded: 3. Waiting for the others.").wait_for()
+        page.get_by_text("Your choice is recorded: 3 baskets. Waiting for the others.").wait_for()
         assert other.harvest("other-seat-1", 1, 1, 5)["ok"]
         page.locator("#result").wait_for(state="visible")
-        assert "Last round (1)" in page.locator("#result-title").inner_text()
+        assert "Result of round 1" in page.locator("#result-title").inner_text()
         assert page.locator("#points").inner_text() == "3"
         assert page.evaluate("document.documentElement.scrollWidth") <= 360  # nothing sticks out sideways
         ARTIFACTS.mkdir(exist_ok=True)

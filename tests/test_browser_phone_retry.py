@@ -50,7 +50,8 @@ def test_phone_retries_a_choice_the_server_could_not_store(start_server, demo_st
         page.screenshot(path=str(ARTIFACTS / f"phone-retrying-{lang}-360x740.png"), full_page=True)
         page.set_viewport_size({"width": 360, "height": 640})
         page.screenshot(path=str(ARTIFACTS / f"phone-retrying-{lang}-360x640.png"), full_page=True)
-        recorded = words(lang, "Your choice is recorded: %(n)s. Waiting for the others.") % {"n": 2}
+        recorded = words(lang, "Your choice is recorded: %(n)s %(unit)s. Waiting for the others.") % {
+            "n": 2, "unit": demo_study.unit_label(lang)}
         page.get_by_text(recorded).wait_for(timeout=30_000)
     finally:
         page.close()

@@ -36,9 +36,9 @@ def test_phone_returns_to_its_seat_after_reload_and_after_being_closed(start_ser
         for _ in range(3):
             page.locator("#more").tap()
         page.locator("#confirm").tap()
-        page.get_by_text("Your choice is recorded: 3. Waiting for the others.").wait_for()
+        page.get_by_text("Your choice is recorded: 3 baskets. Waiting for the others.").wait_for()
         page.reload()  # a reload keeps the seat and its recorded choice
-        page.get_by_text("Your choice is recorded: 3. Waiting for the others.").wait_for()
+        page.get_by_text("Your choice is recorded: 3 baskets. Waiting for the others.").wait_for()
         page.close()
         assert other.harvest("other-seat-01", 1, 1, 2)["ok"]
         page = phone_page.new_page()  # closed and opened again, at the bare address

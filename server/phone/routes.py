@@ -34,8 +34,15 @@ def phone_strings() -> dict[str, str]:
         "confirm": _("Confirm: take %(n)s"),
         "sending": _("Sending your choice…"),
         "retrying": _("Your choice is not saved yet. It is kept on this phone and sent again in a moment."),
-        "recorded": _("Your choice is recorded: %(n)s. Waiting for the others."),
-        "last_round": _("Last round"),
+        "recorded": _("Your choice is recorded: %(n)s %(unit)s. Waiting for the others."),
+        "choose_first": _("Choose how many first"),
+        "result_of_round": _("Result of round %(round)s"),
+        "got_points": _("%(n)s %(unit)s = %(points)s points"),
+        "cash_so_far": _("Cash so far: %(amount)s %(currency)s"),
+        "block_new": _("Part %(block)s begins: the stock starts again at %(stock)s %(unit)s. "
+                       "Read what you are told about it now."),
+        "block_end_exhausted": _("This part ended early: the stock ran out."),
+        "block_end_random": _("This part ended here: the draw said it stops."),
         "you_asked": _("You asked for"),
         "no_choice": _("no choice reached the laptop in time"),
         "you_got": _("You got"),
@@ -78,7 +85,8 @@ def index():
     return redirect(url_for("phone.play"))
 
 
-def _render_phone(secret: str | None = None, problem: str | None = None, status: int = 200):
+def _render_phone(secret: str | None = None, problem: str | None = None, status: int = 200,
+                  typed_code: str = ""):
     live = live_session()
     return render_template(
         "phone.html",
@@ -87,6 +95,7 @@ def _render_phone(secret: str | None = None, problem: str | None = None, status:
         problem=problem,
         strings=phone_strings(),
         code_length=SHORT_CODE_LENGTH,
+        typed_code=typed_code,  # a wrong code stays in the box to correct, not to type again
     ), status
 
 
@@ -126,7 +135,8 @@ def join_by_code():
         page, status = _render_phone(problem=_("Too many wrong codes. Try again in %(s)s seconds.",
                                                s=int(wait) + 1), status=429)
     else:
-        found = registry().seat_by_short_code(request.form.get("code", "")[:40])
+        typed = request.form.get("code", "")[:40]
+        found = registry().seat_by_short_code(typed)
         if found is not None:
             return redirect(url_for("phone.join_by_card", secret=found[1].secret), code=303)
         guard.failed(keys, now)
@@ -137,7 +147,7 @@ def join_by_code():
         page, status = _render_phone(
             problem=_("That code is not a seat of this game. A code has %(n)s letters and digits "
                       "(no 0, O, 1 or I), as printed on your card.", n=SHORT_CODE_LENGTH),
-            status=400,
+            status=400, typed_code=typed[:12],
         )
     response = current_app.make_response((page, status))
     response.set_cookie(DEVICE_COOKIE, device, max_age=86400, httponly=True, samesite="Strict")

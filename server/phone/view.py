@@ -23,6 +23,7 @@ from ebbtide.game_logic.treatments import participant_view
 from ..console.talk import talk_remaining
 from ..pictures.chart import PHONE, stock_path_svg
 from ..pictures.gauge import stock_gauge_svg
+from ..pictures.numbers import numbers_in
 from ..teach.revealed import chart_labels, plain_sentence
 
 
@@ -75,7 +76,7 @@ class PhonePainter:
         self.language = language
 
     def gauge(self, view: PhoneView) -> str:
-        with force_locale(self.language):
+        with force_locale(self.language), numbers_in(self.language):
             return stock_gauge_svg(view.model_dump(mode="json"), labels=gauge_labels(), id_prefix="stock")
 
     def debrief_sentence(self, facts: DebriefFacts, unit: str) -> str:
@@ -86,7 +87,7 @@ class PhonePainter:
         # A phone is narrow: its picture leaves the what-if lines to the sentence.
         drawn = {"block": facts.part - 1, "stock_path": facts.stock_path, "threshold": facts.threshold,
                  "recovery_level": facts.recovery_level, "crossed_round": facts.crossed_round}
-        with force_locale(self.language):
+        with force_locale(self.language), numbers_in(self.language):
             return stock_path_svg(drawn, capacity, facts.degraded_rounds, labels=chart_labels(),
                                   id_prefix=f"mine-b{facts.part}", layout=PHONE)
 
@@ -108,7 +109,7 @@ def seat_snapshot_payload(live, group: int, seat: int) -> dict[str, Any]:
 def add_to_console_snapshot(live, snapshot: dict[str, Any]) -> dict[str, Any]:
     """Per group: a small gauge as its seats see it, the talk countdown and the signal's parts."""
     state = live.state
-    with force_locale(live.study.session.language):
+    with force_locale(live.study.session.language), numbers_in(live.study.session.language):
         labels = gauge_labels()
         for g, group in enumerate(snapshot["groups"]):
             progress = state.groups[g]
@@ -139,9 +140,8 @@ def phone_more_strings() -> dict[str, str]:
         "talk_title": _("Talk with your group"),
         "talk_opens": _("Choices open when the countdown ends."),
         "talk_seconds_left": _("%(seconds)s seconds left"),
-        "pictures": _("Pictures"),
-        "words": _("Words"),
-        "picture_mode": _("Show pictures instead of words"),
+        "show_pictures": _("Show pictures"),
+        "show_words": _("Show words"),
         "take_n": _("Take %(n)s"),
         "take_none": _("Take nothing"),
         "others_none": _("The others' choices are not shown, only the group's total."),

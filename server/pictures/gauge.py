@@ -19,6 +19,8 @@ from collections.abc import Mapping
 from typing import Any
 from xml.sax.saxutils import escape, quoteattr
 
+from .numbers import number_text
+
 # Okabe & Ito (2008, "Color Universal Design") palette entries, chosen to stay
 # distinct for protan, deutan and tritan viewers; from memory.
 BLUE = "#0b4f8a"  # darkened Okabe-Ito blue: the stock, readable in sunlight
@@ -58,9 +60,8 @@ TRENDS = ("falling", "steady", "rising")
 
 
 def _number(value: float) -> str:
-    """Whole numbers without a decimal point, others to one decimal."""
-    value = float(value)
-    return str(int(round(value))) if abs(value - round(value)) < 1e-9 else f"{value:.1f}"
+    """Whole numbers without a decimal sign, others to one decimal, in the caller's language."""
+    return number_text(value)
 
 
 def _chance(danger: Mapping) -> str:

@@ -19,6 +19,7 @@ from ebbtide.game_logic.debrief import finished_outcomes as finished_in
 from ebbtide.game_logic.rounds import Regime, RoundOutcome
 
 from ..pictures.chart import WIDE, stock_path_svg
+from ..pictures.numbers import numbers_in
 
 
 def finished_outcomes(live, group: int) -> list[RoundOutcome]:
@@ -117,10 +118,11 @@ def debrief_blocks(live, group: int, id_prefix: str) -> list[dict[str, Any]]:
         raw["part"] = raw["block"] + 1
         raw["label"] = live.study.block_label(raw["block"], language)
         raw["told"] = treatment_words(raw["treatment"])
-        raw["sentence"] = plain_sentence(raw, live.study.resource.unit)
-        raw["svg"] = stock_path_svg(
-            raw, live.study.resource.capacity, degraded_rounds(live, group, raw["block"]),
-            labels=labels, id_prefix=f"{id_prefix}-b{raw['part']}", layout=WIDE,
-        )
+        raw["sentence"] = plain_sentence(raw, live.study.unit_label(language))
+        with numbers_in(language):
+            raw["svg"] = stock_path_svg(
+                raw, live.study.resource.capacity, degraded_rounds(live, group, raw["block"]),
+                labels=labels, id_prefix=f"{id_prefix}-b{raw['part']}", layout=WIDE,
+            )
         blocks.append(raw)
     return blocks
