@@ -16,6 +16,7 @@ from flask_babel import force_locale, get_locale
 from flask_babel import gettext as _
 
 from ebbtide.game_logic.early_warning import health_reading
+from ebbtide.game_logic.field_day_view import field_day_screen
 from ebbtide.game_logic.treatments import participant_view
 
 from ..console.talk import talk_remaining
@@ -57,7 +58,10 @@ def seat_language(live, group: int, seat: int) -> str:
 
 def add_to_seat_snapshot(live, group: int, seat: int, snapshot: dict[str, Any]) -> dict[str, Any]:
     """The snapshot plus ``gauge_svg``, ``talk_remaining`` (seconds or None) and ``debrief``."""
-    with force_locale(seat_language(live, group, seat)):
+    language = seat_language(live, group, seat)
+    # The field day's stage and its words (the core's gate: game_logic/field_day_view.py).
+    snapshot["field_day"] = field_day_screen(live.state, group, seat, language).model_dump()
+    with force_locale(language):
         snapshot["gauge_svg"] = stock_gauge_svg(snapshot["view"], labels=gauge_labels(), id_prefix="stock")
         snapshot["debrief"] = phone_debrief(live, group)
     left = talk_remaining(live, group)
