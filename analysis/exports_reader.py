@@ -17,7 +17,7 @@ from .errors import ExportFolderError
 TABLES = tuple(CONTRACT)
 _TEXT = {"session_id", "group_id", "seat_id", "treatment", "source", "regime_after", "regime_before",
          "block_name", "end_reason", "currency"}
-_FLAGS = {"crossed", "recovered", "talk", "show_others"}
+_FLAGS = {"crossed", "recovered", "talk", "show_others", "practice", "pictures"}
 
 
 @dataclass(frozen=True)
@@ -98,9 +98,12 @@ def read_table(folder: Path, name: str) -> pd.DataFrame:
         raise ExportFolderError(f"{folder}: {name}.csv is missing; an export holds {', '.join(TABLES)}")
     columns = pd.read_csv(path, nrows=0).columns
     dtype = {c: "string" for c in columns if c in _TEXT}
-    table = pd.read_csv(path, dtype=dtype, keep_default_na=False, na_values={"threshold": [""]})
+    empty_is_missing = {"threshold": [""], "seconds_from_open": [""], "risk_gamble": [""]}
+    table = pd.read_csv(path, dtype=dtype, keep_default_na=False, na_values=empty_is_missing)
     for column in _FLAGS & set(table.columns):
-        table[column] = table[column].map({"true": True, "false": False, True: True, False: False})
+        flags = table[column].map({"true": True, "false": False, True: True, False: False})
+        # A flag that may be unknown (a phone's pictures mode) reads as 1.0 / 0.0 / NaN.
+        table[column] = flags.astype(float) if flags.isna().any() else flags
     for column in dtype:
         table[column] = table[column].astype(str)
     if "threshold" in table.columns:
@@ -111,11 +114,28 @@ def read_table(folder: Path, name: str) -> pd.DataFrame:
     return table
 
 
+def paid_decisions(decisions: pd.DataFrame) -> pd.DataFrame:
+    """The decisions of the paid game: practice rounds and absent seats (no harvest) left out."""
+    keep = pd.Series(True, index=decisions.index)
+    if "practice" in decisions.columns:
+        keep &= decisions["practice"] != True  # noqa: E712 - elementwise on a column
+    if "source" in decisions.columns:
+        keep &= decisions["source"] != "absent"
+    if keep.all():
+        return decisions
+    paid = decisions[keep].copy()
+    for column in ("harvest_asked", "harvest_taken", "points"):
+        if column in paid.columns:
+            paid[column] = pd.to_numeric(paid[column])
+    return paid.reset_index(drop=True)
+
+
 def read_export(folder: str | Path) -> ExportData:
     """Read an export folder written by ``ebbtide pilot``, ``ebbtide export`` or ``ebbtide pool``."""
     folder = Path(folder)
     package = read_package(folder)
     tables = {name: read_table(folder, name) for name in TABLES}
+    tables["decisions"] = paid_decisions(tables["decisions"])
     return ExportData(
         folder=folder,
         format_version=str(package["ebbtide"]["format_version"]),

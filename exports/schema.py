@@ -39,7 +39,14 @@ DECISIONS = (
     Column("harvest_asked", "integer", "Harvest the seat asked for", "units"),
     Column("harvest_taken", "integer", "Harvest the seat received after rationing", "units"),
     Column("points", "number", "Points earned in the round", "points"),
-    Column("source", "string", "Who entered the decision: phone, console, bot or pilot"),
+    Column("source", "string", "Who entered the decision: phone, console, bot or pilot; "
+           "absent for a seat whose person did not agree to take part (no harvest)"),
+    Column("stored_at", "datetime", "When the decision was stored on the laptop (UTC; empty in a pilot)"),
+    Column("seconds_from_open", "number",
+           "Seconds from the event that opened the round to the stored decision (empty in a pilot)", "s"),
+    Column("language", "string", "Language of the phone when it sent the decision (empty if not a phone)"),
+    Column("pictures", "boolean", "Whether the phone showed pictures instead of words (empty if unknown)"),
+    Column("practice", "boolean", "True for unpaid practice rounds, played on their own stock"),
 )
 
 ROUNDS = (
@@ -76,6 +83,14 @@ SEATS = (
         "currency",
     ),
     Column("currency", "string", "Currency of the payment column"),
+    Column("consent", "string", "Consent of the seat's latest person: given, declined or empty (not asked)"),
+    Column("risk_gamble", "integer", "Gamble chosen in the risk task, 1-based (empty if none)"),
+    Column("risk_outcome", "string", "Coin of the risk task: low or high (empty if none)"),
+    Column("risk_points", "number", "Points paid by the risk task (0 when unpaid or none)", "points"),
+    Column("risk_payment", "number", "Cash for the risk task, its own line, rounded up", "currency"),
+    Column("declined_payment", "number",
+           "Show-up fees of people at this seat who did not agree to take part", "currency"),
+    Column("total_payment", "number", "Everything paid for this seat: payment + risk + declined", "currency"),
 )
 
 CONTRACT: dict[str, tuple[Column, ...]] = {
@@ -86,7 +101,7 @@ CONTRACT: dict[str, tuple[Column, ...]] = {
 
 # The columns every later issue relies on, in this order, at the start of each table.
 REQUIRED = {
-    "decisions": [c.name for c in DECISIONS],
+    "decisions": [c.name for c in DECISIONS[:11]],
     "rounds": [c.name for c in ROUNDS[:12]],
     "seats": [c.name for c in SEATS[:5]],
 }

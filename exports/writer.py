@@ -20,6 +20,8 @@ def _field(column: Column) -> dict:
     field = {"name": column.name, "type": column.type, "description": column.description}
     if column.unit:
         field["unit"] = column.unit
+    if column.type == "datetime":
+        field["format"] = "any"  # ISO 8601 with milliseconds and offset, as the event log stores it
     return field
 
 
@@ -45,9 +47,18 @@ def write_table(path: Path, columns: tuple[Column, ...], rows: list[dict]) -> No
             writer.writerow([_cell(row[name]) for name in names])
 
 
-def descriptor(study: Study, session_id: str, seed: int, source: str) -> dict:
+def _tables(names) -> dict[str, tuple[Column, ...]]:
+    """The contract tables, then the field-day tables that were written."""
+    from .field_day import FIELD_DAY_TABLES
+
+    return {**CONTRACT, **{name: cols for name, cols in FIELD_DAY_TABLES.items() if name in names}}
+
+
+def descriptor(study: Study, session_id: str, seed: int, source: str, written=()) -> dict:
     """Frictionless Data Package descriptor: every column's type, unit and meaning."""
-    return {
+    from .field_day import survey_codebook
+
+    package = {
         "profile": "tabular-data-package",
         "name": session_id,
         "title": study.session.title,
@@ -61,7 +72,7 @@ def descriptor(study: Study, session_id: str, seed: int, source: str) -> dict:
                 "encoding": "utf-8",
                 "schema": {"fields": [_field(c) for c in columns]},
             }
-            for name, columns in CONTRACT.items()
+            for name, columns in _tables(written).items()
         ],
         "ebbtide": {
             "format_version": FORMAT_VERSION,
@@ -72,6 +83,11 @@ def descriptor(study: Study, session_id: str, seed: int, source: str) -> dict:
             "study": study.source_text,
         },
     }
+    for resource in package["resources"]:
+        if resource["name"] == "surveys":
+            # Each item's wording per language and its allowed answers (the study's own words).
+            resource["ebbtide_items"] = survey_codebook(study)
+    return package
 
 
 def write_export(
@@ -85,9 +101,9 @@ def write_export(
     """Write decisions.csv, rounds.csv, seats.csv and datapackage.json into ``out_dir``."""
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)
-    for name, columns in CONTRACT.items():
+    for name, columns in _tables(tables).items():
         write_table(out / f"{name}.csv", columns, tables[name])
-    package = descriptor(study, session_id, seed, source)
+    package = descriptor(study, session_id, seed, source, tuple(tables))
     (out / "datapackage.json").write_text(
         json.dumps(package, indent=2, ensure_ascii=False) + "\n", encoding="utf-8"
     )

@@ -62,7 +62,7 @@ def check(study_file: str) -> None:
 
 
 @main.command()
-@click.argument("study_file", type=click.Path(dir_okay=False))
+@click.argument("study_file", type=click.Path())
 @click.option("--groups", type=click.IntRange(1, 100_000), default=200, show_default=True,
               help="Simulated groups to play through the design.")
 @click.option("--seed", type=click.IntRange(0, 2**63 - 1), default=1, show_default=True,
@@ -234,7 +234,8 @@ def export(db_path: str, out_dir: str, stata: bool) -> None:
         if stata:
             write_stata(folder)
             extra = " and .dta"
-        click.echo(f"wrote {folder}/decisions.csv, rounds.csv, seats.csv{extra}, datapackage.json")
+        click.echo(f"wrote {folder}/decisions.csv, rounds.csv, seats.csv, surveys.csv, timeline.csv{extra}, "
+                   "datapackage.json")
 
 
 @main.command()
