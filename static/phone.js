@@ -87,6 +87,8 @@
   }
 
   var socket = io({ auth: { secret: secret, device: device, fresh: fresh } });
+  // The field day's screens (phone-day.js) share this socket and these words.
+  window.ebbtidePhone = { socket: socket, S: S, fmt: fmt, showProblem: showProblem };
 
   // The facilitator released this seat: forget it here; the card's link or code takes it back.
   function released(p) {
@@ -150,7 +152,8 @@
   $("confirm").addEventListener("click", function () {
     if (!snap || pending() || talkLeft() > 0) return;
     var v = snap.view;
-    var decision = { decision_id: randomId(), block: v.block, round: v.round, harvest: choice };
+    var decision = { decision_id: randomId(), block: v.block, round: v.round, harvest: choice,
+                     practice: !!v.practice, language: document.documentElement.lang, pictures: pictorial };
     setPending(decision);
     $("problem").hidden = true;
     render();
@@ -323,6 +326,10 @@
 
   function render() {
     if (!snap) return;
+    // Consent, instructions, questions, questionnaires and the end are the field day's screens.
+    var dayScreen = window.ebbtideDay ? window.ebbtideDay.render(snap) : false;
+    document.body.classList.toggle("day-screen", dayScreen);
+    if (dayScreen) return;
     var v = snap.view;
     $("seat-line").textContent = fmt("your_seat", { seat: v.seat, seats: v.seats }) + " · " +
       (v.rounds_in_block ? fmt("block_round_of", { block: v.block, blocks: v.blocks, round: v.round, rounds: v.rounds_in_block })
@@ -335,7 +342,7 @@
     $("points").textContent = v.points_total;
     $("points").setAttribute("aria-label", S.your_points + ": " + v.points_total);
 
-    var key = v.block + "." + v.round;
+    var key = (v.practice ? "practice." : "") + v.block + "." + v.round;
     if (key !== roundKey) { roundKey = key; choice = 0; }
     var mine = pending();
     var status = "";

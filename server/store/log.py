@@ -229,6 +229,23 @@ class Store:
             )
         return [_event(row) for row in rows]
 
+    def first_times(self, session_id: str) -> dict[str, str]:
+        """When each kind of event first happened in a session (the console's clock of the day)."""
+        with self._lock:
+            rows = self.db.query(
+                "SELECT kind, MIN(created_at) AS first FROM events WHERE session_id = ? GROUP BY kind",
+                (session_id,),
+            )
+            return {row["kind"]: row["first"] for row in rows}
+
+    def last_events(self, session_id: str, limit: int) -> list[Event]:
+        """The latest ``limit`` events of a session, oldest first."""
+        with self._lock:
+            rows = list(self.db.query(
+                "SELECT * FROM events WHERE session_id = ? ORDER BY id DESC LIMIT ?", (session_id, limit)
+            ))
+        return [_event(row) for row in reversed(rows)]
+
 
 class Writer:
     """Appends events inside one ``Store.atomic`` transaction."""
