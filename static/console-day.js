@@ -59,7 +59,7 @@
     state.groups.forEach(function (g) {
       var box = el("div", null, "day-group");
       box.dataset.group = g.group;
-      box.appendChild(el("h3", g.group_id + (g.practice ? " \u00B7 " + S.practice : "")));
+      box.appendChild(el("h3", g.group_id + (g.practice && state.status !== "setup" ? " \u00B7 " + S.practice : "")));
       var table = el("table");
       table.appendChild(row([S.who, S.consent, S.where], true));
       g.seats.forEach(function (s) {

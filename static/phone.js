@@ -329,7 +329,7 @@
     // Consent, instructions, questions, questionnaires and the end are the field day's screens.
     var dayScreen = window.ebbtideDay ? window.ebbtideDay.render(snap) : false;
     document.body.classList.toggle("day-screen", dayScreen);
-    if (dayScreen) return;
+    if (dayScreen) { $("status").textContent = ""; return; }
     var v = snap.view;
     $("seat-line").textContent = fmt("your_seat", { seat: v.seat, seats: v.seats }) + " · " +
       (v.rounds_in_block ? fmt("block_round_of", { block: v.block, blocks: v.blocks, round: v.round, rounds: v.rounds_in_block })

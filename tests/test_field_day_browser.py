@@ -171,3 +171,44 @@ def test_whole_field_day_on_a_phone(start_server, phone_page, tmp_path, lang):
         other.close()
         console.close()
 
+
+
+@pytest.mark.parametrize("lang", ["en", "es", "fr"])
+def test_console_shows_consent_stuck_seats_and_leads_the_instructions(start_server, browser, tmp_path, lang):
+    study = small_day(tmp_path)
+    server = start_server(study)
+    agreeing = connect_phone(server.url, server.key(0, 0).secret, device="device-agrees")
+    declining = connect_phone(server.url, server.key(0, 1).secret, device="device-declines")
+    for phone, agree in ((agreeing, True), (declining, False)):
+        assert phone.client.call("consent", {"agree": agree, "language": "en", "text_sha256":
+                                             text_sha256(study.consent.text["en"])}, timeout=20)["ok"]
+    context = browser.new_context(viewport={"width": 1280, "height": 800})
+    page = context.new_page()
+    try:
+        page.goto(f"{server.url}/console?lang={lang}")
+        page.locator("#pin").fill(server.pin)
+        page.locator("button[type=submit]").first.click()
+        page.locator("#day-panel").wait_for(state="visible")
+        lead = page.locator(".lead-next")
+        lead.click()  # the facilitator shows screen 1, then screen 2, on every consenting phone
+        wait_until(lambda: server.live.state.day.led_step.get(0) == 0, "the first led screen")
+        lead.click()
+        shown = agreeing.wait_for(lambda s: (s["field_day"]["instruction"] or {}).get("step") == 1,
+                                  "screen 2 on the phone")
+        assert shown["field_day"]["instruction"]["led"] is True
+        assert agreeing.client.call("instruction_step", {"step": 3}, timeout=20)["ok"]
+        assert agreeing.client.call("comprehension_answer", {"question": "what-grows", "choice": 1},
+                                    timeout=20)["ok"]
+        stuck = page.locator("#day-seats tr[data-seat='G01-1'] .stuck")
+        stuck.wait_for(state="visible")
+        assert "what-grows" in stuck.inner_text() and "1" in stuck.inner_text()
+        declined = page.locator("#day-seats tr[data-seat='G01-2']").inner_text()
+        words = {"en": "declined", "es": "rechazado", "fr": "refusé"}[lang]
+        assert words in declined
+        SHOTS.mkdir(parents=True, exist_ok=True)
+        page.locator("#day-panel").evaluate("panel => panel.scrollIntoView()")
+        page.screenshot(path=str(SHOTS / f"{lang}-console-day-1280x800.png"))
+    finally:
+        context.close()
+        agreeing.close()
+        declining.close()
