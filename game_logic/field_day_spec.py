@@ -19,7 +19,7 @@ PICTURE_SUFFIXES = (".png", ".jpg", ".jpeg", ".svg", ".webp")
 SOUND_SUFFIXES = (".wav", ".mp3", ".ogg", ".m4a")
 
 # Text per language code: {"en": "...", "es": "..."}; a non-empty string each.
-LanguageCode = Annotated[str, Field(pattern=r"^[a-z]{2,3}$")]
+LanguageCode = Annotated[str, Field(pattern=r"^[a-z]{2,3}([_-][A-Za-z0-9]{2,8})?$")]
 Texts = dict[LanguageCode, Annotated[str, Field(min_length=1, max_length=4000)]]
 
 

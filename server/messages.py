@@ -21,7 +21,7 @@ SeatNumber = Annotated[int, Field(ge=1, le=100)]
 Harvest = Annotated[int, Field(ge=0, le=1000)]
 EntryId = Annotated[int, Field(ge=1, le=2**62)]
 # Who typed a console entry (initials), kept in the event log; blank means "console".
-LanguageCode = Annotated[str, StringConstraints(pattern=r"^[a-z]{2,3}$")]
+LanguageCode = Annotated[str, StringConstraints(pattern=r"^[a-z]{2,3}([_-][A-Za-z0-9]{2,8})?$")]
 ItemId = Annotated[str, StringConstraints(pattern=r"^[a-z0-9][a-z0-9_-]{0,31}$")]
 StepNumber = Annotated[int, Field(ge=0, le=30)]
 Operator = Annotated[str, StringConstraints(pattern=r"^[A-Za-z0-9 .'-]{0,24}$")]

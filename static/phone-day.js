@@ -185,8 +185,8 @@
   }
 
   function ending(box, stage, e) {
-    var title = stage === "end" ? P.S.session_over : P.S.day_declined;
-    box.appendChild(el("h2", null, title));
+    // At the end the game's own screen stays below (its status line, results, a revealed debrief).
+    if (stage !== "end") box.appendChild(el("h2", null, P.S.day_declined));
     if (stage === "replace") box.appendChild(el("p", null, P.S.day_hand_back));
     if (e.risk_gamble) {
       box.appendChild(el("p", null, P.fmt(e.risk_outcome === "high" ? "day_risk_high" : "day_risk_low",
@@ -222,9 +222,10 @@
     banner.hidden = !(day && day.practice && day.stage === "game" && snap.status !== "setup");
     if (!day || day.stage === "game") { box.hidden = true; shownKey = ""; return false; }
     box.hidden = false;
+    var takesScreen = day.stage !== "end";
     window.ebbtideDayConsent = day.consent;
     var key = JSON.stringify(day);
-    if (key === shownKey || (shownKey === "new-person" && day.stage === "replace")) return true;
+    if (key === shownKey || (shownKey === "new-person" && day.stage === "replace")) return takesScreen;
     shownKey = key;
     picked = null;
     box.textContent = "";
@@ -235,7 +236,7 @@
     else if (day.stage === "survey_before" || day.stage === "survey_after") survey(box, day.survey);
     else if (day.stage === "risk") risk(box, day.risk);
     else ending(box, day.stage, day.end);
-    return true;
+    return takesScreen;
   }
 
   window.ebbtideDay = { render: render };
