@@ -102,6 +102,7 @@
     card.appendChild(el("h2", S.group + " " + g.group_id));
     var line = g.session_over ? S.group_done : g.waiting_for_block ? S.waiting_block :
       g.paused ? S.group_paused : S.playing;
+    if (g.practice && state.status !== "setup") card.appendChild(el("p", "\u270E " + S.practice, "notice"));
     card.appendChild(el("p", S.block + " " + g.block + "/" + state.blocks + " (" + g.block_name + ", " +
       g.treatment + ") · " + S.round + " " + g.round + " · " + S.stock + " " + g.stock + " · " + line, "state-line"));
 

@@ -238,3 +238,17 @@ def test_risk_draw_is_a_fair_coin_across_seats():
         highs += state.day.seats[(0, 0)].risk[1] == "high"
     # scipy's exact binomial test: a fair coin is not rejected at the 0.1% level.
     assert binomtest(highs, trials, 0.5).pvalue > 0.001
+
+
+def test_closing_a_practice_round_gives_missing_seats_nothing_and_pays_nothing():
+    state = SessionState.new(day_study("absent", practice=2), 7, "s")
+    for seat in range(3):
+        consent(state, seat, True)
+    event(state, "session_started")
+    play_round(state, True, 1, 1, {0: 4})
+    event(state, "round_closed", group=0, block=1, round=1)  # seats 2 and 3 take 0
+    event(state, "round_closed", group=0, block=1, round=2)  # the second practice round
+    progress = state.groups[0]
+    assert [o.taken for o in progress.practice_outcomes] == [(4, 0, 0), (0, 0, 0)]
+    assert progress.practice_sources[0] == ("phone", "console", "console")
+    assert progress.waiting and progress.units == [0, 0, 0]

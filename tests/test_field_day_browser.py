@@ -208,6 +208,13 @@ def test_console_shows_consent_stuck_seats_and_leads_the_instructions(start_serv
         SHOTS.mkdir(parents=True, exist_ok=True)
         page.locator("#day-panel").evaluate("panel => panel.scrollIntoView()")
         page.screenshot(path=str(SHOTS / f"{lang}-console-day-1280x800.png"))
+        page.locator("#cautions-read").check()
+        page.locator("#start").click()
+        practice = {"en": "Practice round: pays nothing", "es": "Ronda de práctica: no paga nada",
+                    "fr": "Tour d'essai : ne rapporte rien"}[lang]
+        page.locator("#groups .group .notice", has_text=practice).wait_for()
+        page.locator("#groups").evaluate("groups => groups.scrollIntoView()")
+        page.screenshot(path=str(SHOTS / f"{lang}-console-practice-1280x800.png"))
     finally:
         context.close()
         agreeing.close()

@@ -78,7 +78,11 @@ def add_day_to_console_snapshot(live, snapshot: dict[str, Any]) -> dict[str, Any
     state = live.state
     study = state.study
     for g, group in enumerate(snapshot["groups"]):
-        group["practice"] = state.groups[g].practice is not None
+        practice = state.groups[g].practice
+        group["practice"] = practice is not None
+        if practice is not None:  # the practice stock is the one being played
+            group["round"] = practice.round + (0 if practice.block_over else 1)
+            group["stock"] = practice.stock
         group["led_step"] = state.day.led_step.get(g)
         group["steps"] = len(study.instructions)
         for s, seat in enumerate(group["seats"]):

@@ -52,7 +52,7 @@ def on_close_round(conn: Connection, live: LiveSession, msg: GroupTarget):
         return not (progress.waiting or progress.state.block_over)
 
     for g in _groups(live, msg, open_round):
-        state = live.state.groups[g].state
+        state = live.state.groups[g].playing  # the practice stock while the group practises
         live.submit("round_closed", {"group": g, "block": state.block + 1, "round": state.round + 1})
         send_group(live, g)
     if live.state.status == "ended":
