@@ -14,6 +14,7 @@ from decimal import Decimal
 import frictionless
 from conftest import ROOT, connect_console, connect_every_seat, console_login, wait_until
 
+from ebbtide.game_logic.session_fold import replay
 from ebbtide.game_logic.study import load_study
 from ebbtide.server.store.export import export_session
 
@@ -174,6 +175,12 @@ def test_whole_field_day_exports_and_pays_the_same_everywhere(start_server, tmp_
     assert all(r["time"] == times[int(r["event_id"])] for r in timeline)
     text = (out / "timeline.csv").read_text(encoding="utf-8")
     assert "device-0-0" not in text and server.pin not in text
+    # Crash recovery: replaying the stored log gives back the same day, seat by seat.
+    again = replay(study, server.seed, server.live.session_id, events)
+    assert again.day.seats == server.live.state.day.seats
+    live_groups = server.live.state.groups
+    assert [g.practice_outcomes for g in again.groups] == [g.practice_outcomes for g in live_groups]
+    assert [g.units for g in again.groups] == [g.units for g in live_groups]
     for phone in phones.values():
         phone.close()
     console.close()
