@@ -54,7 +54,9 @@ def stock_paths(rounds: pd.DataFrame, chosen: pd.DataFrame, capacity: float) -> 
     size = (3.0 * columns, 2.2 * rows)
     figure, axes = plt.subplots(rows, columns, figsize=size, sharey=True, squeeze=False, layout="constrained")
     palette = colours(chosen["treatment"].unique())
-    indexed = rounds.set_index(KEYS).sort_index()
+    # Only the chosen groups' rounds: indexing the whole table would cost seconds on a large pool.
+    wanted = rounds.merge(chosen[KEYS].drop_duplicates(), on=KEYS, how="inner")
+    indexed = wanted.set_index(KEYS).sort_index()
     for ax, row in zip(axes.flat, chosen.itertuples(), strict=False):
         path = indexed.loc[(row.session_id, row.group_id, row.block)].sort_values("round")
         ax.plot(path["round"], path["stock_before"], color=palette[row.treatment], marker="o", markersize=2.5)

@@ -51,7 +51,8 @@ def group_outcomes(data: ExportData, seed: int = 1, replicates: int = 2000) -> p
         "block_name": first["block_name"],
         "rounds_played": grouped["round"].max(),
         "group_harvest_total": grouped["total_taken"].sum(),
-        "share_degraded": grouped["regime_after"].apply(lambda r: float((r == "degraded").mean())),
+        "share_degraded": (rounds["regime_after"] == "degraded").groupby(
+            [rounds[k] for k in KEYS], sort=False).mean(),
         "crossed": grouped["crossed"].any(),
         "threshold": first["threshold"],
         "start_stock": first["stock_before"],
@@ -66,13 +67,22 @@ def group_outcomes(data: ExportData, seed: int = 1, replicates: int = 2000) -> p
 
     rng = np.random.default_rng(seed)
     optimum, selfish, sustainable = [], [], []
-    for row in table.itertuples():
-        study = studies[row.session_id]
-        played, start, degraded = int(row.rounds_played), int(row.start_stock), bool(row.start_degraded)
-        optimum.append(_policy(study, played).value_at(start, degraded))
-        selfish.append(_selfish(study, played, start, degraded, int(rng.integers(2**32)), replicates))
-        sustainable.append(played * study.seats * min(study.resource.max_harvest,
-                                                      equal_share_of_sustainable_yield(study)))
+    # Groups with the same design, length and start share one benchmark computation.
+    starts = table[["session_id", "rounds_played", "start_stock", "start_degraded"]]
+    cache: dict = {}
+    for session, played, start, degraded in starts.itertuples(index=False, name=None):
+        study = studies[session]
+        key = (study.sha256, int(played), int(start), bool(degraded))
+        if key not in cache:
+            cache[key] = (
+                _policy(study, int(played)).value_at(int(start), bool(degraded)),
+                _selfish(study, int(played), int(start), bool(degraded), int(rng.integers(2**32)),
+                         replicates),
+                int(played) * study.seats * min(study.resource.max_harvest, _equal_share(study)),
+            )
+        optimum.append(cache[key][0])
+        selfish.append(cache[key][1])
+        sustainable.append(cache[key][2])
     table["optimum_total"] = optimum
     table["selfish_total"] = selfish
     table["sustainable_total"] = sustainable
@@ -85,6 +95,11 @@ def group_outcomes(data: ExportData, seed: int = 1, replicates: int = 2000) -> p
 def _policy(study: Study, rounds: int):
     # Studies are frozen and hashable; one programme per (design, realised length).
     return optimal_group_policy(study, rounds)
+
+
+@cache
+def _equal_share(study: Study) -> int:
+    return equal_share_of_sustainable_yield(study)
 
 
 _selfish_cache: dict = {}

@@ -9,11 +9,13 @@ from __future__ import annotations
 import csv
 import hashlib
 import json
+import shutil
+import tempfile
 from collections.abc import Sequence
 from dataclasses import dataclass
 from pathlib import Path
 
-from ebbtide.exports.schema import CONTRACT
+from ebbtide.exports.stata import write_stata
 
 from .errors import PoolError
 from .exports_reader import TABLES, read_export, read_package
@@ -49,7 +51,7 @@ def _inspect(path: Path) -> _Folder:
         digest.update(name.encode() + b"\0" + data + b"\0")
         first_line = data.decode("utf-8").splitlines()[:1]
         headers[name] = next(csv.reader(first_line)) if first_line else []
-    digest.update(package["ebbtide"].get("study_sha256", "").encode())
+    digest.update(json.dumps(package["ebbtide"], sort_keys=True).encode())
     return _Folder(path, package, headers, digest.hexdigest())
 
 
@@ -96,6 +98,8 @@ def pool_exports(folders: Sequence[str | Path], out: str | Path, stata: bool = F
     kept: dict[str, _Folder] = {}
     notes: list[str] = []
     for raw in folders:
+        # Every cell, key and link is checked before anything else is compared or written.
+        ids = set(read_export(Path(raw)).rounds["session_id"])
         folder = _inspect(Path(raw))
         if folder.path.resolve() == out.resolve():
             raise PoolError(f"{out}: the output folder is also an input; choose a new folder for --out")
@@ -111,27 +115,38 @@ def pool_exports(folders: Sequence[str | Path], out: str | Path, stata: bool = F
                 f"{folder.path}: carries session {session_id}, as does {earlier.path}, but with different "
                 "content; session ids must be unique across the pool"
             )
-        kept[session_id] = folder
-    reference = next(iter(kept.values()))
-    # Session ids inside the tables must match the descriptors, or the pool would mix sessions up.
-    for session_id, folder in kept.items():
-        ids = set(read_export(folder.path).rounds["session_id"])
+        # Session ids inside the tables must match the descriptor, or the pool would mix sessions up.
         if ids - {session_id}:
             raise PoolError(
                 f"{folder.path}: rounds.csv holds session ids {sorted(ids)} but its datapackage.json "
                 f"says {session_id!r}"
             )
-    out.mkdir(parents=True, exist_ok=True)
-    for name in TABLES:
-        with (out / f"{name}.csv").open("w", encoding="utf-8", newline="") as handle:
-            handle.write(",".join(reference.headers[name]) + "\n")
-            for folder in kept.values():
-                handle.writelines(_rows(folder.path / f"{name}.csv"))
-    package = _pooled_descriptor(reference.package, kept)
-    (out / "datapackage.json").write_text(json.dumps(package, indent=2, ensure_ascii=False) + "\n",
-                                          encoding="utf-8")
-    if stata:
-        write_stata(out)
+        kept[session_id] = folder
+    reference = next(iter(kept.values()))
+    if out.exists() and (not out.is_dir() or any(out.iterdir())):
+        raise PoolError(f"{out}: already exists and is not an empty folder; choose a new folder for --out")
+    out.parent.mkdir(parents=True, exist_ok=True)
+    # Everything is written into a hidden folder beside ``out`` and renamed at the end,
+    # so a failure part-way leaves nothing behind.
+    staging = Path(tempfile.mkdtemp(prefix=f".{out.name}-", dir=out.parent))
+    try:
+        for name in TABLES:
+            with (staging / f"{name}.csv").open("w", encoding="utf-8", newline="") as handle:
+                handle.write(",".join(reference.headers[name]) + "\n")
+                for folder in kept.values():
+                    handle.writelines(_rows(folder.path / f"{name}.csv"))
+        package = _pooled_descriptor(reference.package, kept)
+        (staging / "datapackage.json").write_text(json.dumps(package, indent=2, ensure_ascii=False) + "\n",
+                                                  encoding="utf-8")
+        read_export(staging)  # keys must hold across sessions too (e.g. the same seat twice)
+        if stata:
+            write_stata(staging)
+        if out.exists():
+            out.rmdir()
+        staging.rename(out)
+    except BaseException:
+        shutil.rmtree(staging, ignore_errors=True)
+        raise
     return PoolResult(out, tuple(kept), tuple(notes))
 
 
@@ -151,27 +166,11 @@ def _pooled_descriptor(reference: dict, kept: dict[str, _Folder]) -> dict:
         "profile": "tabular-data-package",
         "name": "ebbtide-pool",
         "title": f"Pooled Ebbtide sessions ({len(sessions)})",
-        "resources": reference["resources"],
+        # The contract tables only: a live session's surveys and timeline are not pooled.
+        "resources": [r for r in reference["resources"] if r["name"] in TABLES],
         "ebbtide": {
             "format_version": reference["ebbtide"]["format_version"],
             "pooled": True,
             "sessions": sessions,
         },
     }
-
-
-def write_stata(folder: str | Path) -> list[Path]:
-    """Write each contract table as a Stata 118 ``.dta`` file with variable labels."""
-    folder = Path(folder)
-    data = read_export(folder)
-    written = []
-    for name in TABLES:
-        table = getattr(data, name).copy()
-        for column in table.columns:
-            if table[column].dtype == bool:
-                table[column] = table[column].astype("int8")  # Stata has no boolean type
-        labels = {c.name: c.description[:80] for c in CONTRACT[name] if c.name in table.columns}
-        path = folder / f"{name}.dta"
-        table.to_stata(path, write_index=False, version=118, variable_labels=labels)
-        written.append(path)
-    return written

@@ -26,7 +26,7 @@ from .group_outcomes import group_outcomes
 from .panel import fit_panel_models
 from .summary import harvest_summary
 from .survival import good_regime_survival
-from .warning_signs import indicator_summary, indicator_trends
+from .warning_signs import DEFINITIONS, indicator_summary, indicator_trends
 
 OUTCOME = "group_harvest_per_round"
 
@@ -71,6 +71,11 @@ class ReportFiles:
 def _html(table: pd.DataFrame) -> str:
     return table.to_html(index=False, float_format=lambda v: f"{v:.4g}", na_rep="–", border=0,
                          classes="data")
+
+
+def _num(value: float, decimals: int) -> str:
+    """Fixed decimals, or "n/a" for a missing value (never "nan" in prose)."""
+    return "n/a" if value is None or np.isnan(value) else f"{value:.{decimals}f}"
 
 
 def _pct(value: float) -> str:
@@ -250,14 +255,16 @@ def _early_warning(data, has_threshold, tables) -> Section:
     tables["early_warning"] = trends
     tables["early_warning_summary"] = summary
     crossed = trends[trends["crossed"]]["tau_variance"].mean()
-    calm = trends[~trends["crossed"]]["tau_variance"].mean()
-    reading = (
-        f"Kendall's tau of the rolling variance before the first crossing averages {crossed:.2f} in groups "
-        f"that crossed and {calm:.2f} over the whole path in groups that did not."
-        if trends["crossed"].any() else
-        f"No group crossed; Kendall's tau of the rolling variance averages {calm:.2f}."
-    )
-    return Section(title, reading, (_html(summary),))
+    control = trends[~trends["crossed"]]["tau_variance"].mean()
+    if trends["crossed"].any():
+        reading = (
+            f"Kendall's tau of the rolling variance (detrended paths) averages {_num(crossed, 2)} before the "
+            f"first crossing and {_num(control, 2)} in control paths of the same length that never crossed; "
+            "only a clear gap says more than the decline itself."
+        )
+    else:
+        reading = f"No group crossed; Kendall's tau of the rolling variance averages {_num(control, 2)}."
+    return Section(title, reading, (_html(summary),), notes=(DEFINITIONS,))
 
 
 TEMPLATE = jinja2.Environment(autoescape=True, undefined=jinja2.StrictUndefined).from_string("""\

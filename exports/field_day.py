@@ -11,48 +11,12 @@ from __future__ import annotations
 from datetime import datetime
 from typing import Any
 
-from ebbtide.game_logic.field_day import seat_money
+from ebbtide.game_logic.field_day import practice_study, seat_money
 from ebbtide.game_logic.rounds import RoundOutcome
 from ebbtide.game_logic.session_fold import DecisionTiming, SessionState
 from ebbtide.game_logic.study import Study
 
-from .schema import Column
 from .tables import decision_rows, group_code, round_row, seat_code, seat_rows
-
-_SESSION = Column("session_id", "string", "Session identifier, unique across pooled exports")
-_GROUP = Column("group_id", "string", "Group identifier within the session")
-_SEAT = Column("seat_id", "string", "Seat code (anonymous; never a name)")
-
-SURVEYS = (
-    _SESSION,
-    _GROUP,
-    _SEAT,
-    Column("questionnaire", "string",
-           "Questionnaire id from the study; 'consent', 'comprehension' and 'risk_task' for those steps"),
-    Column("item", "string", "Item id (question id for comprehension; 'consent' and 'gamble' otherwise)"),
-    Column("answer", "string",
-           "The answer: a choice number, choice numbers joined by ';', a whole number, 1-5 on the "
-           "agree-disagree scale, free text; agree or decline for consent"),
-    Column("time", "datetime", "When the answer was stored on the laptop (UTC)"),
-    Column("event_id", "integer", "Id of the answer in the session's event log"),
-    Column("attempt", "integer", "Comprehension only: 1 for the first try, 2 for the second, ..."),
-    Column("correct", "boolean", "Comprehension only: whether the answer was right"),
-    Column("language", "string", "Consent only: the language of the text shown"),
-    Column("text_sha256", "string", "Consent only: SHA-256 of the consent text shown (UTF-8)"),
-    Column("outcome", "string", "Risk task only: the coin, low or high"),
-)
-
-TIMELINE = (
-    _SESSION,
-    Column("event_id", "integer", "Id in the session's event log (its order)"),
-    Column("time", "datetime", "When the event was stored on the laptop (UTC)"),
-    Column("kind", "string", "What happened (the event's kind in the log)"),
-    _GROUP,
-    _SEAT,
-    Column("detail", "string", "A short description (block, round, value, who entered it)"),
-)
-
-FIELD_DAY_TABLES: dict[str, tuple[Column, ...]] = {"surveys": SURVEYS, "timeline": TIMELINE}
 
 
 def parse_time(stamp: str) -> datetime:
@@ -91,8 +55,10 @@ def live_tables(state: SessionState, session_id: str, times: dict[int, str], eve
             rows = decision_rows(study, session_id, outcome, sources)
             _timing_rows(rows, timing, times, practice)
             decisions.extend(rows)
-            if not practice:  # rounds.csv is the paid game only
-                rounds.append(round_row(study, session_id, outcome))
+            # Practice rounds are rows of rounds.csv too (practice = 1, their own stock), so that
+            # every decision row has its round; the analysis leaves them out.
+            rows_study = practice_study(study) if practice else study
+            rounds.append({**round_row(rows_study, session_id, outcome), "practice": practice})
     seats = seat_rows(study, session_id, decisions)
     for row in seats:
         g, s = _seat_of(row["seat_id"])
@@ -109,6 +75,7 @@ def live_tables(state: SessionState, session_id: str, times: dict[int, str], eve
         "surveys": survey_rows(state, session_id, times),
         "timeline": timeline_rows(session_id, events),
     }
+
 
 
 def _seat_of(code: str) -> tuple[int, int]:

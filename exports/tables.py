@@ -2,10 +2,13 @@
 
 from __future__ import annotations
 
+import math
 from collections.abc import Iterable
 
 from ebbtide.game_logic.money import earnings
+from ebbtide.game_logic.resource import below_threshold
 from ebbtide.game_logic.rounds import RoundOutcome
+from ebbtide.game_logic.session_fold import CLOSED
 from ebbtide.game_logic.study import Study
 
 
@@ -40,7 +43,8 @@ def decision_rows(
             "treatment": treatment,
             "round": outcome.round,
             "stock_before": outcome.stock_before,
-            "harvest_asked": asked,
+            # A closed round's missing seat asked nothing: empty, not a typed 0.
+            "harvest_asked": "" if source == CLOSED else asked,
             "harvest_taken": taken,
             "points": earnings(taken, study.payment).points,
             "source": source,
@@ -79,6 +83,9 @@ def round_row(study: Study, session_id: str, outcome: RoundOutcome) -> dict:
         "talk": block.talk,
         "show_others": block.show_others,
         "end_reason": outcome.end_reason or "",
+        "below_threshold": bool(below_threshold(
+            outcome.remaining, math.nan if outcome.threshold is None else outcome.threshold)),
+        "practice": False,
     }
 
 

@@ -11,7 +11,16 @@ from pathlib import Path
 from ebbtide.game_logic.money import decimal_text
 from ebbtide.game_logic.study import Study
 
-from .schema import CONTRACT, Column
+from .schema import (
+    BOOLEAN_LABELS,
+    CONTRACT,
+    FALSE_VALUES,
+    FIELD_DAY_TABLES,
+    FOREIGN_KEYS,
+    PRIMARY_KEYS,
+    TRUE_VALUES,
+    Column,
+)
 
 FORMAT_VERSION = "1"
 
@@ -22,12 +31,26 @@ def _field(column: Column) -> dict:
         field["unit"] = column.unit
     if column.type == "datetime":
         field["format"] = "any"  # ISO 8601 with milliseconds and offset, as the event log stores it
+    if column.constraints:
+        field["constraints"] = dict(column.constraints)
+    if column.type == "boolean":
+        field.update(trueValues=TRUE_VALUES, falseValues=FALSE_VALUES,
+                     valueLabels={str(k): v for k, v in BOOLEAN_LABELS.items()})
     return field
+
+
+def table_schema(name: str) -> dict:
+    """Table Schema of one table (contract or field day): fields, primary key and foreign keys."""
+    columns = CONTRACT.get(name) or FIELD_DAY_TABLES[name]
+    schema = {"fields": [_field(c) for c in columns], "primaryKey": PRIMARY_KEYS[name]}
+    if FOREIGN_KEYS[name]:
+        schema["foreignKeys"] = FOREIGN_KEYS[name]
+    return schema
 
 
 def _cell(value):
     if isinstance(value, bool):
-        return "true" if value else "false"
+        return "1" if value else "0"  # R's read.csv and Stata read 0/1 as numbers
     if isinstance(value, float):
         # Whole numbers without ".0" keep the CSV readable; others keep full precision.
         return str(int(value)) if value.is_integer() else repr(value)
@@ -38,7 +61,7 @@ def _cell(value):
 
 
 def write_table(path: Path, columns: tuple[Column, ...], rows: list[dict]) -> None:
-    """Write one CSV table (UTF-8, one header row, Table Schema booleans)."""
+    """Write one CSV table (UTF-8, one header row, booleans as 0/1)."""
     names = [c.name for c in columns]
     with path.open("w", encoding="utf-8", newline="") as handle:
         writer = csv.writer(handle, lineterminator="\n")
@@ -49,8 +72,6 @@ def write_table(path: Path, columns: tuple[Column, ...], rows: list[dict]) -> No
 
 def _tables(names) -> dict[str, tuple[Column, ...]]:
     """The contract tables, then the field-day tables that were written."""
-    from .field_day import FIELD_DAY_TABLES
-
     return {**CONTRACT, **{name: cols for name, cols in FIELD_DAY_TABLES.items() if name in names}}
 
 
@@ -70,9 +91,9 @@ def descriptor(study: Study, session_id: str, seed: int, source: str, written=()
                 "format": "csv",
                 "mediatype": "text/csv",
                 "encoding": "utf-8",
-                "schema": {"fields": [_field(c) for c in columns]},
+                "schema": table_schema(name),
             }
-            for name, columns in _tables(written).items()
+            for name in _tables(written)
         ],
         "ebbtide": {
             "format_version": FORMAT_VERSION,

@@ -265,3 +265,43 @@ def debrief_group(
         seed=seed,
         blocks=tuple(debrief_block(study, seed, rows, less_by) for rows in blocks),
     )
+
+
+def finished_outcomes(outcomes: Sequence[RoundOutcome], current: GroupState) -> list[RoundOutcome]:
+    """A group's rounds in the blocks it has finished (a block still in play is not debriefed)."""
+    return [o for o in outcomes if o.block < current.block or current.block_over]
+
+
+def _one_decimal(value: float | None) -> float | None:
+    return None if value is None else round(value, 1)
+
+
+def participant_debrief(
+    study: Study, seed: int, outcomes: Sequence[RoundOutcome], language: str
+) -> list[dict[str, Any]]:
+    """What a group's own phones may show once the debrief is revealed: one entry per finished block.
+
+    ``outcomes`` are the group's rounds of finished blocks (``finished_outcomes``).
+    JSON-ready and deliberately narrow: the block's participant-facing label (never the
+    researcher's name, nor the treatment key), the levels to one decimal as the console
+    shows them, the group's own stock path and the what-if cuts that decide the sentence.
+    """
+    if not outcomes:
+        return []
+    debrief = debrief_group(study, seed, outcomes)
+    return [
+        {
+            "part": block.block + 1,
+            "label": study.block_label(block.block, language),
+            "threshold": _one_decimal(block.threshold),
+            "recovery_level": _one_decimal(block.recovery_level),
+            "stock_path": list(block.stock_path),
+            "degraded_rounds": [o.round for o in outcomes
+                                if o.block == block.block and o.regime_after is Regime.DEGRADED],
+            "total_taken": block.total_taken,
+            "crossed_round": block.crossed_round,
+            "total_regrowth_lost": block.total_regrowth_lost,
+            "what_ifs": [{"less_by": w.less_by, "crossed_round": w.crossed_round} for w in block.what_ifs],
+        }
+        for block in debrief.blocks
+    ]

@@ -10,7 +10,7 @@ import math
 from .benchmarks import equilibria, maximum_sustainable_yield
 from .field_day_spec import day_plan
 from .money import earnings, money_text
-from .study import Study
+from .study import Study, participant_text_warnings
 
 
 def design_warnings(study: Study) -> list[str]:
@@ -56,7 +56,7 @@ def design_warnings(study: Study) -> list[str]:
     minutes = expected_minutes(study)
     if minutes > 180:
         warnings.append(f"expected duration {minutes:.0f} minutes: over three hours is hard on participants")
-    return warnings
+    return warnings + participant_text_warnings(study)
 
 
 def expected_minutes(study: Study) -> float:

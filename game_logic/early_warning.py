@@ -76,14 +76,25 @@ class HealthReading:
         return HealthSignal(self.band, self.trend)
 
 
+TIE_DECIMALS = 9  # indicator values are rounded to 1e-9 before ranking: equal in exact
+# arithmetic means equal here, so Kendall's tau does not break ties made by rounding noise.
+
+
 def lag1_autocorrelation(values: Sequence[float]) -> float:
     """Pearson correlation of x_t with x_{t-1}; NaN when undefined."""
     x = np.asarray(values, dtype=float)
     if x.size < 3:
         return float("nan")
-    a, b = x[:-1] - x[:-1].mean(), x[1:] - x[1:].mean()
-    denom = np.sqrt((a * a).sum() * (b * b).sum())
-    return float((a * b).sum() / denom) if denom > 0 else float("nan")
+    return float(_lag1_rows(x[None, :])[0])
+
+
+def _lag1_rows(windows: NDArray[np.float64]) -> NDArray[np.float64]:
+    """Lag-1 autocorrelation along the last axis of an array of windows."""
+    a = windows[..., :-1] - windows[..., :-1].mean(axis=-1, keepdims=True)
+    b = windows[..., 1:] - windows[..., 1:].mean(axis=-1, keepdims=True)
+    denom = np.sqrt((a * a).sum(axis=-1) * (b * b).sum(axis=-1))
+    with np.errstate(invalid="ignore", divide="ignore"):
+        return np.where(denom > 0, (a * b).sum(axis=-1) / np.where(denom > 0, denom, 1.0), np.nan)
 
 
 def _check_window(window: int, minimum: int) -> None:
@@ -91,47 +102,97 @@ def _check_window(window: int, minimum: int) -> None:
         raise ValueError(f"window must be a whole number of rounds, at least {minimum}; got {window!r}")
 
 
-def rolling_variance(values: Sequence[float], window: int) -> NDArray[np.float64]:
-    """Sample variance (ddof=1) over each trailing window; NaN until the window is full."""
-    _check_window(window, 2)
-    x = np.asarray(values, dtype=float)
-    out = np.full(x.size, np.nan)
-    if x.size >= window:
-        out[window - 1 :] = sliding_window_view(x, window).var(axis=1, ddof=1)
+def _rolling(x: NDArray[np.float64], window: int, statistic) -> NDArray[np.float64]:
+    """``statistic`` over each trailing window along the last axis; NaN until the window is full."""
+    out = np.full(x.shape, np.nan)
+    if x.shape[-1] >= window:
+        out[..., window - 1 :] = statistic(sliding_window_view(x, window, axis=-1))
     return out
+
+
+def rolling_variance(values: Sequence[float], window: int) -> NDArray[np.float64]:
+    """Sample variance (ddof=1) over each trailing window; NaN until the window is full.
+
+    ``values`` may be one path or a 2-D array of paths of equal length (one per row).
+    """
+    _check_window(window, 2)
+    return _rolling(np.asarray(values, dtype=float), window, lambda w: w.var(axis=-1, ddof=1))
 
 
 def rolling_lag1_autocorrelation(values: Sequence[float], window: int) -> NDArray[np.float64]:
-    """Lag-1 autocorrelation over each trailing window; NaN until the window is full."""
+    """Lag-1 autocorrelation over each trailing window; NaN until the window is full (rows as above)."""
     _check_window(window, 3)
-    x = np.asarray(values, dtype=float)
-    out = np.full(x.size, np.nan)
-    if x.size >= window:
-        out[window - 1 :] = [lag1_autocorrelation(w) for w in sliding_window_view(x, window)]
-    return out
+    return _rolling(np.asarray(values, dtype=float), window, _lag1_rows)
 
 
-def kendall_trend(indicator: Sequence[float]) -> float:
-    """Kendall's tau of an indicator against time (NaNs dropped); NaN if too short."""
-    y = np.asarray(indicator, dtype=float)
-    t = np.arange(y.size)
-    keep = ~np.isnan(y)
-    if keep.sum() < 3 or np.ptp(y[keep]) == 0:
-        return float("nan")
-    tau = stats.kendalltau(t[keep], y[keep]).statistic
-    return float(tau)
+def kendall_trends(indicators: NDArray[np.float64], decimals: int = TIE_DECIMALS) -> NDArray[np.float64]:
+    """Kendall's tau-b of each row against time, NaNs dropped, ties honoured after rounding.
+
+    Values are rounded to ``decimals`` places first, so values equal up to rounding
+    noise count as ties. Time has no ties, so tau-b = S / sqrt(n0 (n0 - n_ties))
+    (Kendall 1945), S the concordant minus discordant pairs. NaN for a row with
+    fewer than three values or no spread.
+    """
+    y = np.round(np.atleast_2d(np.asarray(indicators, dtype=float)), decimals)
+    valid = ~np.isnan(y)
+    later = np.triu(np.ones((y.shape[1], y.shape[1]), dtype=bool), k=1)
+    pairs = valid[:, :, None] & valid[:, None, :] & later
+    with np.errstate(invalid="ignore"):
+        signs = np.sign(y[:, None, :] - y[:, :, None])
+    signs = np.where(pairs, signs, 0.0)
+    score = signs.sum(axis=(1, 2))
+    n0 = pairs.sum(axis=(1, 2))
+    untied = (pairs & (signs != 0)).sum(axis=(1, 2))
+    usable = (valid.sum(axis=1) >= 3) & (untied > 0)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        return np.where(usable, score / np.sqrt(n0 * untied.astype(float)), np.nan)
+
+
+def kendall_trend(indicator: Sequence[float], decimals: int = TIE_DECIMALS) -> float:
+    """Kendall's tau of an indicator against time (NaNs dropped, ties honoured); NaN if too short."""
+    return float(kendall_trends(np.asarray(indicator, dtype=float)[None, :], decimals)[0])
 
 
 def detrended(values: Sequence[float], bandwidth: float) -> NDArray[np.float64]:
     """Residuals after Gaussian-kernel smoothing (Dakos et al. 2012, sec. "Detrending").
 
     ``bandwidth`` is the kernel's standard deviation in rounds; the edges are
-    padded with the nearest value so a short path keeps its ends.
+    padded with the nearest value so a short path keeps its ends. ``values``
+    may be one path or a 2-D array of paths (one per row).
     """
     if not bandwidth > 0:
         raise ValueError(f"bandwidth must be a positive number of rounds; got {bandwidth!r}")
     x = np.asarray(values, dtype=float)
-    return x - ndimage.gaussian_filter1d(x, sigma=bandwidth, mode="nearest")
+    return x - ndimage.gaussian_filter1d(x, sigma=bandwidth, mode="nearest", axis=-1)
+
+
+def default_window(length: int) -> int:
+    """Trailing window for a path of ``length`` rounds: half the path, at least 3."""
+    return max(3, length // 2)
+
+
+def default_bandwidth(length: int) -> float:
+    """Kernel bandwidth for a path of ``length`` rounds: a tenth of it, at least 2 rounds."""
+    return max(2.0, length / 10)
+
+
+def indicator_trend_rows(
+    paths: NDArray[np.float64], *, window: int | None = None, bandwidth: float | None = None
+) -> tuple[NDArray[np.float64], NDArray[np.float64], int, float]:
+    """Kendall taus of rolling variance and lag-1 autocorrelation of detrended paths.
+
+    ``paths`` holds one path per row, all of the same length. Returns the
+    variance taus, the AR(1) taus, the window and the bandwidth used. This is
+    the one implementation behind the health signal and the analysis.
+    """
+    x = np.atleast_2d(np.asarray(paths, dtype=float))
+    length = x.shape[1]
+    window = default_window(length) if window is None else window
+    bandwidth = default_bandwidth(length) if bandwidth is None else bandwidth
+    residuals = detrended(x, bandwidth)
+    variance = kendall_trends(rolling_variance(residuals, window))
+    ar1 = kendall_trends(rolling_lag1_autocorrelation(residuals, window))
+    return variance, ar1, int(window), float(bandwidth)
 
 
 def indicator_trends(
@@ -144,15 +205,9 @@ def indicator_trends(
     (Dakos et al. 2012 use windows of half the record length).
     """
     x = np.asarray(values, dtype=float)
-    window = max(3, x.size // 2) if window is None else window
-    bandwidth = max(2.0, x.size / 10) if bandwidth is None else bandwidth
-    residuals = detrended(x, bandwidth)
-    return IndicatorTrends(
-        variance_tau=kendall_trend(rolling_variance(residuals, window)),
-        ar1_tau=kendall_trend(rolling_lag1_autocorrelation(residuals, window)),
-        window=int(window),
-        bandwidth=float(bandwidth),
-    )
+    variance, ar1, window, bandwidth = indicator_trend_rows(x[None, :], window=window, bandwidth=bandwidth)
+    return IndicatorTrends(variance_tau=float(variance[0]), ar1_tau=float(ar1[0]), window=window,
+                           bandwidth=bandwidth)
 
 
 def _recent_slope(path: NDArray[np.float64]) -> float:

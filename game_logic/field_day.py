@@ -16,12 +16,13 @@ under ``"replacement"`` another person may take the seat card and consents afres
 
 from __future__ import annotations
 
+import copy
 import hashlib
 from dataclasses import dataclass, field
 from decimal import Decimal
 from typing import Any
 
-from .errors import Refused
+from .errors import Refused, UnknownSeat
 from .money import Earnings, earnings
 from .resource import draw_threshold
 from .rounds import GroupState, Regime
@@ -73,6 +74,16 @@ class FieldDay:
     def new(cls, study: Study, seed: int) -> FieldDay:
         seats = {(g, s): SeatDay() for g in range(study.groups.count) for s in range(study.seats)}
         return cls(study, seed, seats)
+
+    def fork(self) -> FieldDay:
+        """A copy for the next version of the session (copy-on-write, as ``SessionState.fork``):
+        the dicts are new; a seat's day is copied by ``apply`` before it changes."""
+        return FieldDay(self.study, self.seed, dict(self.seats), dict(self.led_step))
+
+    def _own(self, key: tuple[int, int]) -> SeatDay:
+        # Earlier versions may still hold this SeatDay: change a copy, never the shared one.
+        self.seats[key] = copy.deepcopy(self.seats[key])
+        return self.seats[key]
 
     # -- who plays --------------------------------------------------------------
 
@@ -135,7 +146,7 @@ class FieldDay:
             return
         key = (body["group"], body["seat"])
         if key not in self.seats:
-            raise Refused("unknown_seat", f"group {key[0] + 1}, seat {key[1] + 1} does not exist")
+            raise UnknownSeat(f"group {key[0] + 1}, seat {key[1] + 1} does not exist")
         stage = self.seat_stage(*key, game_over)
         if kind == "consent_answered":
             self._check_consent(body, stage)
@@ -202,11 +213,11 @@ class FieldDay:
         if kind == "instructions_led":
             g = body["group"]
             self.led_step[g] = body["step"]
-            for (group, seat), day in self.seats.items():
+            for group, seat in list(self.seats):
                 if group == g and self.consented(group, seat):
-                    day.step = body["step"]
+                    self._own((group, seat)).step = body["step"]
             return
-        day = self.seats[(body["group"], body["seat"])]
+        day = self._own((body["group"], body["seat"]))
         if kind == "consent_answered":
             day.consent = "given" if body["agree"] else "declined"
             day.consents.append({"agree": bool(body["agree"]), "language": body["language"],

@@ -1,21 +1,126 @@
-"""Offline pilot: many simulated groups through a whole design, vectorised.
+"""Offline play of many simulated groups through a whole design, vectorised over groups.
 
-Groups advance together through ``rounds.advance`` (numpy arrays over
-groups); every random draw comes from the same per-round generators a live
-session uses, so pilot group g with seed s is exactly what ``resolve`` would
-give for those harvests.
+``play`` is the one simulation loop: blocks start through ``rounds.start_block`` and
+``rounds.next_block``, every round is resolved by ``rounds.advance`` (the function
+``resolve`` calls), what a seat sees is built from ``treatments.danger_info`` (the
+phone's gate) and its choice comes from a behaviour model (``game_logic.behaviour``)
+fed by its group's own generator (``seeding.behaviour_rng``). The pilot records every
+round as a ``RoundOutcome``; the power analysis and the budget keep only summaries.
+
+With ``live_draws`` (the pilot) each round's flip and stop draws come from
+``seeding.round_rng``, exactly as in a live session, so pilot group g with seed s is
+what ``resolve`` gives for the same harvests. Without (power analysis, budget), they
+come from the group's behaviour generator after the seats' uniforms: one generator
+per group and block instead of one per round.
 """
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass, replace
 
 import numpy as np
+from numpy.typing import NDArray
 
-from .rounds import Regime, RoundOutcome, advance, group_threshold, round_draws
-from .seeding import round_rng, strategy_rng
-from .strategies import make_strategy
+from .behaviour import Danger, Model, Observation, make_model
+from .rounds import Advance, GroupState, Regime, RoundOutcome, advance, next_block, round_draws, start_block
+from .seeding import behaviour_rng, round_rng
 from .study import Study
+from .treatments import danger_info
+
+
+@dataclass(frozen=True)
+class RoundStep:
+    """One round of the groups still playing their block (arrays over those groups)."""
+
+    block: int
+    round: int
+    rows: NDArray[np.int64]  # positions in the ``groups`` given to ``play``
+    groups: NDArray[np.int64]  # group numbers in the seed tree
+    stock_before: NDArray[np.int64]
+    degraded_before: NDArray[np.bool_]
+    threshold: NDArray[np.float64]
+    asked: NDArray[np.int64]
+    flip_draw: NDArray[np.float64]
+    continue_draw: NDArray[np.float64]
+    result: Advance
+
+
+def _as_model(study: Study, model: Model | str) -> Model:
+    return make_model(model, study) if isinstance(model, str) else model
+
+
+def play(
+    study: Study,
+    model: Model | str,
+    seed: int,
+    groups: Sequence[int] | NDArray[np.int64],
+    on_round: Callable[[RoundStep], None],
+    live_draws: bool = True,
+) -> None:
+    """Play the groups numbered ``groups`` through every block; ``on_round`` sees each round."""
+    model = _as_model(study, model)
+    ids = np.asarray(groups, dtype=np.int64)
+    if ids.ndim != 1 or ids.size == 0:
+        raise ValueError("groups must list at least one group number")
+    seats = study.seats
+    states: list[GroupState] = [start_block(study, seed, int(g), 0) for g in ids]
+    for b, block in enumerate(study.blocks):
+        if b > 0:
+            states = [next_block(study, seed, s) for s in states]
+        stock = np.array([s.stock for s in states], dtype=np.int64)
+        degraded = np.array([s.regime is Regime.DEGRADED for s in states])
+        threshold = np.array([np.nan if s.threshold is None else s.threshold for s in states])
+        infos = [danger_info(study, s) for s in states]
+        # The band is recomputed each round only for models that read it (it is costly).
+        signal_rows = [i for i, info in enumerate(infos) if info["kind"] == "signal" and model.reads_signal]
+        paths = {i: list(states[i].stock_path) for i in signal_rows}
+        # Other treatments say the same thing all block long: their arrays are built once.
+        static = None if signal_rows else Danger.from_infos(infos)
+        generators = [behaviour_rng(seed, int(g), b) for g in ids]
+        uniforms = np.stack([gen.random((block.rounds, seats)) for gen in generators])
+        if not live_draws:
+            own_draws = np.stack([gen.random((block.rounds, 2)) for gen in generators])
+        own_last = np.full((ids.size, seats), np.nan)
+        group_last = np.full((ids.size, 1), np.nan)
+        played = np.zeros(ids.size, dtype=np.int64)
+        reasons = np.full(ids.size, None, dtype=object)
+        active = np.arange(ids.size)
+        for k in range(1, block.rounds + 1):
+            for i in signal_rows:
+                if played[i] == k - 1:  # still playing: the signal reads the path so far
+                    infos[i] = danger_info(study, replace(states[i], stock_path=tuple(paths[i])))
+            danger = static.take(active) if static else Danger.from_infos([infos[i] for i in active])
+            obs = Observation(round=np.full(active.size, k), stock=stock[active],
+                              own_last=own_last[active], group_last=group_last[active], danger=danger)
+            asked = model.ask(obs, uniforms[active, k - 1])
+            if live_draws:
+                draws = np.array([round_draws(round_rng(seed, int(ids[i]), b, k)) for i in active])
+            else:
+                draws = own_draws[active, k - 1]
+            result = advance(study, b, np.full(active.size, k), stock[active], degraded[active],
+                             threshold[active], asked, draws[:, 0], draws[:, 1])
+            on_round(RoundStep(b, k, active, ids[active], stock[active], degraded[active],
+                               threshold[active], asked, draws[:, 0], draws[:, 1], result))
+            stock[active] = result.stock_after
+            degraded[active] = result.degraded_after
+            own_last[active] = result.taken
+            group_last[active, 0] = result.taken.sum(axis=1)
+            played[active] = k
+            reasons[active] = result.end_reason
+            for i, after in zip(active, result.stock_after, strict=True):
+                if i in paths:
+                    paths[i].append(int(after))
+            active = active[~result.block_over]
+            if active.size == 0:
+                break
+        last_block = b == len(study.blocks) - 1
+        states = [
+            replace(s, round=int(played[i]), stock=int(stock[i]),
+                    regime=Regime.DEGRADED if degraded[i] else Regime.GOOD,
+                    block_over=True, session_over=last_block, end_reason=reasons[i])
+            for i, s in enumerate(states)
+        ]
 
 
 @dataclass(frozen=True)
@@ -29,53 +134,29 @@ class PilotRun:
     outcomes: tuple[RoundOutcome, ...]
 
 
-def run_pilot(study: Study, groups: int, seed: int, strategy: str) -> PilotRun:
-    """Play ``groups`` simulated groups through every block of ``study``."""
+def run_pilot(study: Study, groups: int, seed: int, strategy: Model | str) -> PilotRun:
+    """Play groups 0..``groups``-1 through every block of ``study`` with a behaviour model."""
     if groups < 1:
         raise ValueError(f"groups must be at least 1, got {groups}")
-    player = make_strategy(strategy, study)
-    noise = strategy_rng(seed)
-    initial = study.resource.initial_stock
-    stock = np.full(groups, initial, dtype=np.int64)
-    degraded = np.zeros(groups, dtype=bool)
+    model = _as_model(study, strategy)
     outcomes: list[RoundOutcome] = []
-    for b, block in enumerate(study.blocks):
-        if block.reset_stock:
-            stock[:] = initial
-            degraded[:] = False
-        thresholds = [group_threshold(study, seed, g, b) for g in range(groups)]
-        threshold = np.array([np.nan if t is None else t for t in thresholds])
-        active = np.arange(groups)
-        last_taken = None
-        for k in range(1, block.rounds + 1):
-            asked = player.ask(k, stock[active], last_taken, noise)
-            draws = np.array([round_draws(round_rng(seed, g, b, k)) for g in active])
-            step = advance(
-                study, b, np.full(active.size, k), stock[active], degraded[active],
-                threshold[active], asked, draws[:, 0], draws[:, 1],
-            )
-            for j, g in enumerate(active):
-                outcomes.append(
-                    RoundOutcome(
-                        group=int(g), block=b, round=k,
-                        stock_before=int(stock[g]),
-                        asked=tuple(int(a) for a in asked[j]),
-                        taken=tuple(int(t) for t in step.taken[j]),
-                        remaining=int(step.remaining[j]),
-                        stock_after=int(step.stock_after[j]),
-                        regime_before=Regime.DEGRADED if degraded[g] else Regime.GOOD,
-                        regime_after=Regime.DEGRADED if step.degraded_after[j] else Regime.GOOD,
-                        threshold=thresholds[g],
-                        crossed=bool(step.crossed[j]), recovered=bool(step.recovered[j]),
-                        flip_draw=float(draws[j, 0]), continue_draw=float(draws[j, 1]),
-                        block_over=bool(step.block_over[j]), end_reason=step.end_reason[j],
-                    )
-                )
-            stock[active] = step.stock_after
-            degraded[active] = step.degraded_after
-            keep = ~step.block_over
-            last_taken = step.taken[keep]
-            active = active[keep]
-            if active.size == 0:
-                break
-    return PilotRun(study, seed, groups, strategy, tuple(outcomes))
+
+    def record(step: RoundStep) -> None:
+        r = step.result
+        for j, g in enumerate(step.groups):
+            outcomes.append(RoundOutcome(
+                group=int(g), block=step.block, round=step.round,
+                stock_before=int(step.stock_before[j]),
+                asked=tuple(int(a) for a in step.asked[j]),
+                taken=tuple(int(t) for t in r.taken[j]),
+                remaining=int(r.remaining[j]), stock_after=int(r.stock_after[j]),
+                regime_before=Regime.DEGRADED if step.degraded_before[j] else Regime.GOOD,
+                regime_after=Regime.DEGRADED if r.degraded_after[j] else Regime.GOOD,
+                threshold=None if np.isnan(step.threshold[j]) else float(step.threshold[j]),
+                crossed=bool(r.crossed[j]), recovered=bool(r.recovered[j]),
+                flip_draw=float(step.flip_draw[j]), continue_draw=float(step.continue_draw[j]),
+                block_over=bool(r.block_over[j]), end_reason=r.end_reason[j],
+            ))
+
+    play(study, model, seed, np.arange(groups), record, live_draws=True)
+    return PilotRun(study, seed, groups, model.name, tuple(outcomes))

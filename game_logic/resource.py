@@ -135,6 +135,18 @@ def draw_threshold(spec: ThresholdSpec, rng: np.random.Generator) -> float | Non
     return float(rng.uniform(spec.low, spec.high))
 
 
+def below_threshold(remaining: ArrayLike, threshold: ArrayLike) -> NDArray[np.bool_]:
+    """True where what remains after the harvest lies below the threshold (NaN: no threshold).
+
+    Whether the regime then flips is a separate matter (``next_regime``: the flip draw,
+    and a stock already degraded cannot flip again).
+    """
+    remaining = np.asarray(remaining, dtype=float)
+    threshold = np.asarray(threshold, dtype=float)
+    has = ~np.isnan(threshold)
+    return has & (remaining < np.where(has, threshold, 0.0))
+
+
 def next_regime(
     degraded: ArrayLike,
     remaining: ArrayLike,
@@ -156,7 +168,7 @@ def next_regime(
     remaining = np.asarray(remaining, dtype=float)
     threshold = np.asarray(threshold, dtype=float)
     has = ~np.isnan(threshold)
-    below = has & (remaining < np.where(has, threshold, 0.0))
+    below = below_threshold(remaining, threshold)
     crossed = ~degraded & below & (np.asarray(flip_draw, dtype=float) < flip_probability)
     above_recovery = has & (remaining > np.where(has, threshold + recovery_gap, np.inf))
     recovered = degraded & above_recovery

@@ -96,19 +96,31 @@ class Advance:
     end_reason: NDArray[np.object_]
 
 
+def check_harvest(study: Study, seat: int, harvest: object) -> int:
+    """The one harvest rule: a whole number of units from 0 to ``max_harvest``; else ``InvalidHarvest``."""
+    cap = study.resource.max_harvest
+    if isinstance(harvest, bool) or not isinstance(harvest, (int, np.integer)) or not 0 <= harvest <= cap:
+        raise InvalidHarvest(
+            f"seat {seat + 1}: harvest {harvest!r} is not allowed; allowed: a whole number from 0 to {cap}"
+        )
+    return int(harvest)
+
+
 def check_harvests(study: Study, harvests: Sequence[int]) -> tuple[int, ...]:
     """Validate one group's harvest requests; raise ``InvalidHarvest`` if any is off."""
-    seats, cap = study.seats, study.resource.max_harvest
-    if len(harvests) != seats:
-        raise InvalidHarvest(f"expected {seats} harvests, one per seat, got {len(harvests)}")
-    clean = []
-    for seat, h in enumerate(harvests):
-        if isinstance(h, bool) or not isinstance(h, (int, np.integer)) or not 0 <= h <= cap:
-            raise InvalidHarvest(
-                f"seat {seat + 1} asked {h!r}; allowed: a whole number from 0 to {cap}"
-            )
-        clean.append(int(h))
-    return tuple(clean)
+    if len(harvests) != study.seats:
+        raise InvalidHarvest(f"expected {study.seats} harvests, one per seat, got {len(harvests)}")
+    return tuple(check_harvest(study, seat, h) for seat, h in enumerate(harvests))
+
+
+def check_block_open(state: GroupState) -> None:
+    """The one rule for a group's own block: rounds are played only while it runs; else ``RoundClosed``."""
+    if state.session_over:
+        raise RoundClosed("session_over", f"group {state.group + 1} has played its last block; "
+                          "no more decisions are taken")
+    if state.block_over:
+        raise RoundClosed("block_over", f"block {state.block + 1} is over for group {state.group + 1}; "
+                          "wait for the next block")
 
 
 def advance(
@@ -177,8 +189,7 @@ def resolve(
 
     Returns the state after the round and the round's full outcome.
     """
-    if state.session_over or state.block_over:
-        raise RoundClosed(f"block {state.block + 1} of group {state.group + 1} is over")
+    check_block_open(state)
     asked = check_harvests(study, harvests)
     flip, cont = round_draws(rng)
     number = state.round + 1
@@ -259,7 +270,8 @@ def start_block(
 def next_block(study: Study, seed: int, state: GroupState) -> GroupState:
     """Move a group whose block is over into the next block."""
     if not state.block_over:
-        raise RoundClosed(f"block {state.block + 1} of group {state.group + 1} is still running")
+        raise RoundClosed("block_running",
+                          f"block {state.block + 1} of group {state.group + 1} is still running")
     if state.session_over:
-        raise RoundClosed(f"group {state.group + 1} has played its last block")
+        raise RoundClosed("session_over", f"group {state.group + 1} has played its last block")
     return start_block(study, seed, state.group, state.block + 1, previous=state)

@@ -23,11 +23,25 @@ def round_rng(seed: int, group: int, block: int, round_number: int) -> np.random
 
 
 def strategy_rng(seed: int) -> np.random.Generator:
-    """Generator for simulated players' own noise (pilot and rehearsal bots)."""
+    """Generator of the rehearsal bots' thinking times (their choices use ``behaviour_rng``)."""
     return np.random.default_rng([seed, STRATEGY_STREAM])
 
-PRACTICE_STREAM = 4
-RISK_TASK_STREAM = 5
+
+BEHAVIOUR_STREAM = 4
+
+
+def behaviour_rng(seed: int, group: int, block: int) -> np.random.Generator:
+    """Generator of one group's simulated players in one block.
+
+    Its first draws are the seats' uniforms, ``random((rounds, seats))`` in play
+    order; pilot, rehearsal bots and power analysis all read them this way.
+    """
+    return np.random.default_rng([seed, BEHAVIOUR_STREAM, group, block])
+
+
+# Streams 1-4 belong to the game and the behaviour models; the field day has its own.
+PRACTICE_STREAM = 5
+RISK_TASK_STREAM = 6
 
 
 def practice_threshold_rng(seed: int, group: int) -> np.random.Generator:

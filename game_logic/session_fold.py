@@ -30,20 +30,29 @@ Pacing rules (also in ``docs/server.md``):
 
 from __future__ import annotations
 
+import copy
 from collections.abc import Iterable
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, fields, replace
 from typing import Any
 
 from ebbtide.game_logic.field_day import FIELD_DAY_KINDS, FieldDay, practice_start, practice_study
-from ebbtide.game_logic.money import earnings
-from ebbtide.game_logic.rounds import GroupState, RoundOutcome, next_block, resolve, start_block
+from ebbtide.game_logic.rounds import (
+    GroupState,
+    RoundOutcome,
+    check_block_open,
+    check_harvest,
+    next_block,
+    resolve,
+    start_block,
+)
 from ebbtide.game_logic.seeding import practice_round_rng, round_rng
 from ebbtide.game_logic.study import Study
-from ebbtide.game_logic.treatments import participant_view
 
-from .errors import Refused
+from .errors import Refused, RoundClosed, UnknownGroup, UnknownSeat
 
 SOURCES = ("phone", "console", "bot")
+# A seat with no decision when the facilitator closed its round: it takes 0, but nobody asked for 0.
+CLOSED = "closed"
 # Events that only record what replay derives anyway (kept for people reading the log).
 AUDIT_KINDS = frozenset({"session_created", "round_resolved"})
 GROUP_KINDS = frozenset({"group_paused", "group_resumed"})
@@ -150,14 +159,57 @@ class SessionState:
     def present_seats(self, g: int) -> list[int]:
         return [s for s in range(self.study.seats) if not self.day.absent(g, s)]
 
+    def fork(self) -> SessionState:
+        """A copy to fold the next events into, leaving this version exactly as it is.
+
+        Copy-on-write: the live server folds accepted events into a fork and
+        publishes it whole, so a reader holding a version never sees it change.
+        Containers are copied one level deep; what they hold is frozen (outcomes,
+        decisions, receipts, group states) or replaced, never changed, by ``apply``.
+        """
+        forked = _with_fresh_containers(self)
+        forked.groups = [_with_fresh_containers(progress) for progress in self.groups]
+        if self.day is not None:
+            forked.day = self.day.fork()  # its seats' days are copied when they change
+        return forked
+
     # -- checks (raise Refused, change nothing) -------------------------------
 
-    def _group(self, group: int) -> GroupProgress:
-        if not 0 <= group < len(self.groups):
-            raise Refused(
-                "unknown_group", f"group {group + 1} does not exist; allowed: 1..{len(self.groups)}"
-            )
+    def group(self, group: int) -> GroupProgress:
+        """The one group range check (``group`` 0-based): the group's progress, else ``UnknownGroup``."""
+        if isinstance(group, bool) or not isinstance(group, int) or not 0 <= group < len(self.groups):
+            shown = group + 1 if isinstance(group, int) else repr(group)
+            raise UnknownGroup(f"group {shown} does not exist; allowed: 1..{len(self.groups)}")
         return self.groups[group]
+
+    def open_round(self, group: int) -> GroupProgress:
+        """The one "is this group's round open" rule: its progress, else ``RoundClosed``.
+
+        Open means: the session has started and not ended, and the group's block is
+        still running (a paused session or group keeps its round open; whether a
+        phone may decide in it is the harvest check's business).
+        """
+        progress = self.group(group)
+        self._check_not_ended()
+        if self.status == "setup":
+            raise RoundClosed("not_started", "the session has not started yet; wait for the facilitator")
+        if progress.practice is not None and progress.practice.block_over:
+            raise RoundClosed("block_over", f"the practice rounds are over for group {group + 1}; "
+                              "wait for the paid game")
+        check_block_open(progress.playing)  # the practice stock while the group practises
+        return progress
+
+    def _check_not_ended(self) -> None:
+        if self.status == "ended":
+            raise RoundClosed("session_over", "the session has ended; it is kept to read, pay and export, "
+                              "and nothing more can be played in it")
+
+    def round_is_open(self, group: int) -> bool:
+        try:
+            self.open_round(group)
+        except RoundClosed:
+            return False
+        return True
 
     def check(self, kind: str, body: dict[str, Any]) -> None:
         """Raise ``Refused`` if the event cannot happen now."""
@@ -171,20 +223,18 @@ class SessionState:
             if self.status != "paused":
                 raise Refused("not_paused", f"only a paused session can be resumed; it is {self.status}")
         elif kind == "session_ended":
-            if self.status == "ended":
-                raise Refused("session_over", "the session has already ended")
+            self._check_not_ended()
         elif kind == "seat_claimed":
-            self._group(body["group"])
+            self.group(body["group"])
         elif kind == "seat_released":
             self._check_seat(body["seat"])
-            self._group(body["group"])
+            self.group(body["group"])
             if not self.devices.get((body["group"], body["seat"])):
                 raise Refused("not_claimed", f"seat {body['seat'] + 1} of group {body['group'] + 1} "
                               "is not held by any device; nothing to release")
         elif kind in GROUP_KINDS:
-            progress = self._group(body["group"])
-            if self.status == "ended":
-                raise Refused("session_over", "the session has ended")
+            progress = self.group(body["group"])
+            self._check_not_ended()
             wanted = kind == "group_paused"
             if progress.paused == wanted:
                 word = "paused" if wanted else "playing"
@@ -196,9 +246,8 @@ class SessionState:
         elif kind == "round_closed":
             self._check_open_round(body, decided_ok=True)
         elif kind == "block_opened":
-            progress = self._group(body["group"])
-            if self.status == "ended":
-                raise Refused("session_over", "the session has ended")
+            progress = self.group(body["group"])
+            self._check_not_ended()
             if not progress.waiting:
                 raise Refused(
                     "block_running",
@@ -208,7 +257,7 @@ class SessionState:
             self._check_reveal()
         elif kind in FIELD_DAY_KINDS:
             group = body.get("group")
-            self._group(group if isinstance(group, int) else -1)
+            self.group(group if isinstance(group, int) else -1)
             self.day.check(kind, body, self.game_over(group))
         elif kind not in AUDIT_KINDS:
             raise Refused("unknown_event", f"unknown event {kind!r}")
@@ -225,29 +274,24 @@ class SessionState:
             raise Refused("already_revealed", "the debrief has already been revealed to participants")
 
     def _check_open_round(self, body: dict[str, Any], decided_ok: bool) -> GroupProgress:
-        progress = self._group(body["group"])
+        progress = self.group(body["group"])
         practising = progress.practice is not None
         # Phones always say which they mean, so a late practice decision never counts as paid play.
         if "practice" in body and bool(body["practice"]) != practising:
             word = "practice rounds" if practising else "the paid game"
-            raise Refused("wrong_round", f"group {body['group'] + 1} is playing {word} now")
+            raise RoundClosed("wrong_round", f"group {body['group'] + 1} is playing {word} now")
+        self.open_round(body["group"])
         state = progress.playing
-        if self.status == "ended" or progress.state.session_over:
-            raise Refused("session_over", "the session has ended; no more decisions are taken")
-        if self.status == "setup":
-            raise Refused("not_started", "the session has not started yet; wait for the facilitator")
-        if progress.waiting or state.block_over:
-            raise Refused("block_over", f"block {state.block + 1} is over; wait for the next block")
         current = (state.block + 1, state.round + 1)
         asked_for = (body["block"], body["round"])
         if asked_for < current:
-            raise Refused(
+            raise RoundClosed(
                 "round_resolved",
                 f"block {asked_for[0]}, round {asked_for[1]} is already resolved and cannot change; "
                 f"the open round is block {current[0]}, round {current[1]}",
             )
         if asked_for != current:
-            raise Refused(
+            raise RoundClosed(
                 "wrong_round",
                 f"block {asked_for[0]}, round {asked_for[1]} is not open yet; "
                 f"the open round is block {current[0]}, round {current[1]}",
@@ -255,17 +299,9 @@ class SessionState:
         return progress
 
     def _check_seat(self, seat: int) -> None:
-        if not 0 <= seat < self.study.seats:
-            raise Refused("unknown_seat", f"seat {seat + 1} does not exist; allowed: 1..{self.study.seats}")
-
-    def _check_value(self, seat: int, harvest: Any) -> None:
-        cap = self.study.resource.max_harvest
-        if isinstance(harvest, bool) or not isinstance(harvest, int) or not 0 <= harvest <= cap:
-            raise Refused(
-                "invalid_harvest",
-                f"seat {seat + 1}: harvest {harvest!r} is not allowed; "
-                f"allowed: a whole number from 0 to {cap}",
-            )
+        if isinstance(seat, bool) or not isinstance(seat, int) or not 0 <= seat < self.study.seats:
+            shown = seat + 1 if isinstance(seat, int) else repr(seat)
+            raise UnknownSeat(f"seat {shown} does not exist; allowed: 1..{self.study.seats}")
 
     def _check_harvest(self, body: dict[str, Any]) -> None:
         progress = self._check_open_round(body, decided_ok=False)
@@ -277,7 +313,7 @@ class SessionState:
             raise Refused("group_paused", "your group is paused; wait until the facilitator resumes it")
         seat = body["seat"]
         self._check_seat(seat)
-        self._check_value(seat, body["harvest"])
+        check_harvest(self.study, seat, body["harvest"])
         if self.day.absent(body["group"], seat):
             raise Refused("seat_absent", f"seat {seat + 1} did not agree to take part; it plays no round")
         if body["source"] != "console" and not self.day.consented(body["group"], seat):
@@ -294,7 +330,7 @@ class SessionState:
         progress = self._check_open_round(body, decided_ok=True)
         seat = body["seat"]
         self._check_seat(seat)
-        self._check_value(seat, body["harvest"])
+        check_harvest(self.study, seat, body["harvest"])
         current = progress.pending.get(seat)
         if current is None:
             raise Refused(
@@ -341,9 +377,9 @@ class SessionState:
         elif kind == "session_ended":
             self.status = "ended"
         elif kind == "seat_claimed":
-            devices = self.devices.setdefault((body["group"], body["seat"]), [])
-            if body["device"] not in devices:
-                devices.append(body["device"])
+            devices = self.devices.get((body["group"], body["seat"]), [])
+            if body["device"] not in devices:  # a new list: a published version's list never changes
+                self.devices[(body["group"], body["seat"])] = [*devices, body["device"]]
         elif kind == "harvest_submitted":
             g, seat = body["group"], body["seat"]
             progress = self.groups[g]
@@ -371,7 +407,7 @@ class SessionState:
         progress = self.groups[g]
         state = progress.playing
         seats = range(self.study.seats)
-        missing = Decision(0, "console", None)
+        missing = Decision(0, CLOSED, None)
         absent = Decision(0, "absent", None)
         decisions = [absent if self.day.absent(g, s) else progress.pending.get(s, missing) for s in seats]
         timing = DecisionTiming(
@@ -406,33 +442,6 @@ class SessionState:
 
     # -- reading -------------------------------------------------------------
 
-    def seat_snapshot(self, g: int, seat: int) -> dict[str, Any]:
-        """Everything a phone receives: the treatment's view plus neutral UI state."""
-        progress = self.groups[g]
-        if progress.practice is not None:
-            last = progress.practice_outcomes[-1] if progress.practice_outcomes else None
-            practice_units = sum(o.taken[seat] for o in progress.practice_outcomes)
-            view = participant_view(
-                practice_study(self.study), progress.practice, seat, last,
-                earnings(practice_units, self.study.payment).points,
-            )
-        else:
-            view = participant_view(
-                self.study, progress.state, seat, progress.last_outcome,
-                earnings(progress.units[seat], self.study.payment).points,
-            )
-        view["practice"] = progress.practice is not None
-        mine = progress.pending.get(seat)
-        return {
-            "seq": self.seq,
-            # A paused group looks like a paused session to its phones: they wait.
-            "status": "paused" if progress.paused and self.status == "running" else self.status,
-            "waiting_for_block": progress.waiting,
-            "decided": mine is not None,
-            "my_harvest": None if mine is None else mine.harvest,
-            "view": view,
-        }
-
     def outcomes(self) -> list[tuple[RoundOutcome, tuple[str, ...]]]:
         """Every resolved round with each seat's source, group by group, in play order."""
         return [
@@ -440,6 +449,12 @@ class SessionState:
             for progress in self.groups
             for outcome, sources in zip(progress.outcomes, progress.sources, strict=True)
         ]
+
+
+def _with_fresh_containers(obj: Any) -> Any:
+    fresh = {f.name: copy.copy(value) for f in fields(obj)
+             if isinstance(value := getattr(obj, f.name), (list, dict, set))}
+    return replace(obj, **fresh)
 
 
 def replay(study: Study, seed: int, session_id: str, events: Iterable[Any]) -> SessionState:

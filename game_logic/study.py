@@ -8,12 +8,21 @@ so a researcher can fix the file before the trip rather than in the village hall
 from __future__ import annotations
 
 import hashlib
+import re
 import tomllib
 from decimal import Decimal
 from pathlib import Path
 from typing import Annotated, Literal
 
-from pydantic import BaseModel, ConfigDict, Field, StrictBool, ValidationError, model_validator
+from pydantic import (
+    BaseModel,
+    BeforeValidator,
+    ConfigDict,
+    Field,
+    StrictBool,
+    ValidationError,
+    model_validator,
+)
 
 from .errors import StudyError
 from .field_day_spec import (
@@ -32,6 +41,33 @@ THRESHOLD_RULES = ("none", "fixed", "uniform")
 END_RULES = ("fixed", "random")
 
 Treatment = Literal["none", "vague", "range", "exact", "risk", "signal"]
+LANGUAGE_CODE = re.compile(r"[a-z]{2,3}(_[A-Z]{2})?")
+LABEL_CHARS = 60
+
+
+def _label_pairs(value: object) -> object:
+    """A TOML table ``{ en = "...", es = "..." }`` -> sorted (language, text) pairs (hashable, frozen)."""
+    if value is None or isinstance(value, tuple):
+        return value
+    if not isinstance(value, dict):
+        raise ValueError(f"holds {value!r}; allowed: a table of texts by language, e.g. {{ en = \"...\" }}")
+    for language, text in value.items():
+        if not LANGUAGE_CODE.fullmatch(language):
+            raise ValueError(f"{language!r} is not a language code; allowed: codes such as en, es, fr")
+        if not isinstance(text, str) or not 1 <= len(text.strip()) <= LABEL_CHARS:
+            raise ValueError(f"the {language!r} text holds {text!r}; allowed: 1 to {LABEL_CHARS} characters")
+    return tuple(sorted(value.items()))
+
+
+# What participants read on their phones, seat cards and the projector, per language.
+# Separate from the researcher's ``session.title`` and block ``name``, which may name
+# the design ("low-threshold") and so never reach participants.
+ParticipantLabel = Annotated[tuple[tuple[str, str], ...], BeforeValidator(_label_pairs)]
+
+
+def label_texts(label: ParticipantLabel | None) -> dict[str, str]:
+    """A label's texts by language (empty when the study gave none)."""
+    return dict(label or ())
 PositiveFloat = Annotated[float, Field(gt=0)]
 Probability = Annotated[float, Field(ge=0, le=1)]
 PositiveDecimal = Annotated[Decimal, Field(gt=0)]
@@ -46,6 +82,7 @@ class SessionSpec(_Frozen):
 
     id: Annotated[str, Field(pattern=r"^[a-z0-9][a-z0-9-]{1,47}$")]
     title: Annotated[str, Field(min_length=1, max_length=120)]
+    label: ParticipantLabel | None = None
     place: str = ""
     language: str = "en"
     languages: tuple[str, ...] = ("en",)
@@ -64,13 +101,23 @@ class SessionSpec(_Frozen):
                 f"session.language holds {self.language!r}, which is not among "
                 f"session.languages {list(self.languages)}"
             )
+        _check_label_languages("session.label", self.label, self.languages)
         return self
+
+
+def _check_label_languages(where: str, label: ParticipantLabel | None, offered: tuple[str, ...]) -> None:
+    unknown = sorted(set(label_texts(label)) - set(offered))
+    if unknown:
+        raise ValueError(
+            f"{where} has text in {unknown}, which is not among session.languages {list(offered)}; "
+            "add the language there or drop its text"
+        )
 
 
 class GroupsSpec(_Frozen):
     """How many groups play at once and how many seats each has."""
 
-    count: Annotated[int, Field(ge=1, le=20)]
+    count: Annotated[int, Field(ge=1, le=200)]
     seats_per_group: Annotated[int, Field(ge=2, le=12)]
 
 
@@ -200,6 +247,7 @@ class BlockSpec(_Frozen):
     """A run of rounds under one information treatment and its switches."""
 
     name: Annotated[str, Field(min_length=1, max_length=40)]
+    label: ParticipantLabel | None = None
     treatment: Treatment = "none"
     # Between-groups designs: group g plays treatments[g % len(treatments)].
     treatments: Annotated[tuple[Treatment, ...], Field(min_length=1, max_length=6)] | None = None
@@ -310,6 +358,8 @@ class Study(_Frozen):
         names = [b.name for b in self.blocks]
         if len(set(names)) != len(names):
             raise ValueError(f"block names must be unique, got {names}")
+        for i, block in enumerate(self.blocks):
+            _check_label_languages(f"blocks.{i}.label", block.label, self.session.languages)
         support = self.threshold.support
         if support is not None:
             top = support[1] + self.threshold.recovery_gap
@@ -335,6 +385,52 @@ class Study(_Frozen):
     @property
     def sha256(self) -> str:
         return hashlib.sha256(self.source_text.encode("utf-8")).hexdigest()
+
+    def session_label(self, language: str) -> str | None:
+        """The session's participant-facing title in ``language`` (else the session's language), or None."""
+        return _pick(self.session.label, language, self.session.language)
+
+    def block_label(self, block: int, language: str) -> str | None:
+        """Block ``block``'s (0-based) participant-facing label, as ``session_label``; None if none given.
+
+        Never the researcher's block ``name``: with no label, the phone says only "Part 2".
+        """
+        return _pick(self.blocks[block].label, language, self.session.language)
+
+
+def _pick(label: ParticipantLabel | None, language: str, fallback: str) -> str | None:
+    texts = label_texts(label)
+    return texts.get(language) or texts.get(fallback)
+
+
+def participant_text_warnings(study: Study) -> list[str]:
+    """Participant-facing labels that would tell the design, or that lack an offered language."""
+    labelled = [("session.label", study.session.label)]
+    labelled += [(f"blocks.{i}.label", b.label) for i, b in enumerate(study.blocks)]
+    researcher_names = [b.name for b in study.blocks]
+    warnings = []
+    for where, label in labelled:
+        for language, text in label_texts(label).items():
+            told = sorted(set(re.findall(r"\w+", text.lower())) & set(TREATMENTS))
+            if told:
+                warnings.append(
+                    f"{where}.{language} = {text!r} names the treatment {', '.join(told)}: "
+                    "participants would read the design; choose a neutral label"
+                )
+            named = [n for n in researcher_names if re.search(rf"(?<!\w){re.escape(n)}(?!\w)", text, re.I)]
+            if named or text.strip().lower() == study.session.title.strip().lower():
+                what = f"block name {named[0]!r}" if named else "session.title"
+                warnings.append(
+                    f"{where}.{language} = {text!r} repeats the researcher's {what}: participants "
+                    "would read the design; choose a neutral label"
+                )
+        missing = sorted(set(study.session.languages) - set(label_texts(label))) if label else []
+        if missing:
+            warnings.append(
+                f"{where} has no text in {missing}: phones in that language show the "
+                f"{study.session.language!r} text"
+            )
+    return warnings
 
 
 def _describe(error: dict) -> str:

@@ -1,9 +1,12 @@
-"""The one gate for information: what a participant's screen may receive.
+"""What a treatment lets a participant see: the core of the one information gate.
 
-Everything sent to a phone is built by ``participant_view``. Hidden values
-(the threshold under ``none``/``vague``/``range``/``signal``, the seed, the
-round's random draws, other seats' harvests when ``show_others`` is off, the
-regime label) are never put into its result, so they cannot leak by accident.
+``participant_view`` is the treatment's part of what a phone is sent; the whole
+snapshot (this view, a revealed debrief, neutral UI state) is built and validated in
+``phone_snapshot.py``. Hidden values (the threshold under ``none``/``vague``/``range``/
+``signal``, the seed, the round's random draws, other seats' harvests when
+``show_others`` is off, the regime label) and the researcher's own words (block names,
+treatment keys) are never put into its result, so they cannot leak by accident; the
+danger's ``kind`` is what the screen draws.
 """
 
 from __future__ import annotations
@@ -78,8 +81,6 @@ def participant_view(
         "seats": study.seats,
         "block": state.block + 1,
         "blocks": len(study.blocks),
-        "block_name": block.name,
-        "treatment": block.treatment_for(state.group),
         "talk": block.talk,
         "talk_seconds": block.talk_seconds if block.talk else 0,
         "show_others": block.show_others,

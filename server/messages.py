@@ -16,7 +16,7 @@ from ebbtide.game_logic.errors import Refused
 SeatSecret = Annotated[str, StringConstraints(pattern=r"^[A-Za-z0-9_-]{16,64}$")]
 ClientId = Annotated[str, StringConstraints(pattern=r"^[A-Za-z0-9_-]{8,64}$")]
 Count = Annotated[int, Field(ge=1, le=1000)]
-GroupNumber = Annotated[int, Field(ge=1, le=100)]
+GroupNumber = Annotated[int, Field(ge=1, le=200)]  # the cap of GroupsSpec.count
 SeatNumber = Annotated[int, Field(ge=1, le=100)]
 Harvest = Annotated[int, Field(ge=0, le=1000)]
 EntryId = Annotated[int, Field(ge=1, le=2**62)]
@@ -37,9 +37,13 @@ class PhoneAuth(_Message):
     secret: SeatSecret
     device: ClientId
     agent: Literal["phone", "bot"] = "phone"
+    # Only the rehearsal command knows this (console/access.py ``rehearsal_token``); a bot needs it.
+    rehearsal: Annotated[str, StringConstraints(pattern=r"^[0-9a-f]{40}$")] | None = None
     # True when the secret came from the seat card just now (its link), not from storage:
     # only such a device may take back a seat the facilitator released.
     fresh: bool = False
+    # The person confirmed taking the seat over from another phone that holds it now.
+    take_over: bool = False
 
 
 class ConsoleAuth(_Message):

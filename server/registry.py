@@ -24,7 +24,9 @@ from ebbtide.game_logic.session_fold import Receipt, SessionState, replay
 from ebbtide.game_logic.study import Study, parse_study
 
 from .console.payment_sheet import PaymentSheet, payment_sheet
-from .phone.view import add_to_console_snapshot, add_to_seat_snapshot
+from .console.talk import TalkPauses
+from .phone.view import add_to_console_snapshot, seat_snapshot_payload
+from .ratelimit import FailureLimiter
 from .store import SeatKey, SessionRecord, Store
 
 # No 0/O, 1/I: a code read aloud or typed on a small keyboard cannot be mistaken.
@@ -56,18 +58,46 @@ class Change:
     receipt: Receipt | None = None
 
 
+class SessionVersion:
+    """One published version of a live session, for readers that look at it more than once.
+
+    ``state`` stays the version it was made with; everything else is the live session's.
+    """
+
+    def __init__(self, live: LiveSession, state: SessionState):
+        self._live = live
+        self.state = state
+
+    def __getattr__(self, name: str) -> Any:
+        return getattr(self._live, name)
+
+
 class LiveSession:
-    """One running session: its design, its seat keys, its log and its state."""
+    """One running session: its design, its seat keys, its log and its published state.
+
+    Copy-on-write: every accepted change is folded into a fork of the state under
+    the session's lock and published whole once it is committed, so ``state`` may
+    be read from any thread without the lock and never changes under its reader.
+    """
 
     def __init__(self, store: Store, record: SessionRecord, keys: list[SeatKey]):
         self.store = store
         self.record = record
         self.study: Study = parse_study(record.study_text)
         self.keys = keys
-        self._lock = threading.RLock()
-        self.state: SessionState = replay(
+        self._lock = threading.RLock()  # one writer at a time; readers need no lock
+        self._state: SessionState = replay(
             self.study, record.seed, record.session_id, store.events(record.session_id)
         )
+
+    @property
+    def state(self) -> SessionState:
+        """The latest published version; never changed after publication."""
+        return self._state
+
+    def pinned(self) -> SessionVersion:
+        """The session as of now, for building one page or snapshot from one version."""
+        return SessionVersion(self, self._state)
 
     @property
     def session_id(self) -> str:
@@ -83,54 +113,70 @@ class LiveSession:
     def submit_many(self, requests: list[tuple[str, dict[str, Any], str | None]]) -> Change:
         """Check every event, then store them (and the rounds they resolve) in one transaction.
 
-        All or nothing: one refusal refuses the lot. The events must not depend on
-        each other's checks (paper slips of one round: distinct seats).
+        All or nothing: one refusal refuses the lot, and a failed write publishes
+        nothing. The events must not depend on each other's checks (paper slips of
+        one round: distinct seats).
         """
-        with self._lock:
+        with self.store.writing(), self._lock:  # a commit starting meanwhile waits for this change
+            state = self._state
             fresh = []
             for kind, body, decision_id in requests:
-                if decision_id is not None and decision_id in self.state.receipts:
-                    receipt = self.state.receipts[decision_id]
+                if decision_id is not None and decision_id in state.receipts:
+                    receipt = state.receipts[decision_id]
                     if (receipt.group, receipt.seat) != (body.get("group"), body.get("seat")):
                         raise Refused("bad_request", "that decision id belongs to another seat")
                     continue
-                self.state.check(kind, body)
+                state.check(kind, body)
                 fresh.append((kind, body, decision_id))
             if not fresh:
                 decision_id = requests[-1][2]
-                return Change(self.state.seq, False, receipt=self.state.receipts.get(decision_id))
-            resolved: list[RoundOutcome] = []
-            try:
-                with self.store.atomic(self.session_id) as writer:
-                    for kind, body, decision_id in fresh:
-                        event, _ = writer.append(kind, body, decision_id)
-                        done = self.state.apply(kind, body, decision_id, event.id)
-                        for outcome in done:
-                            audit, _ = writer.append("round_resolved", _audit(outcome))
-                            self.state.seq = audit.id
-                        resolved.extend(done)
-            except BaseException:
-                # The transaction rolled back: rebuild the state from what is really stored.
-                self.state = replay(self.study, self.record.seed, self.session_id,
-                                    self.store.events(self.session_id))
-                raise
-            last_id = requests[-1][2]
-            receipt = self.state.receipts.get(last_id) if last_id else None
-            return Change(self.state.seq, True, tuple(resolved), receipt)
+                change = Change(state.seq, False, receipt=state.receipts.get(decision_id))
+                ticket = None  # a repeat: its first copy may still be on its way to disk
+            else:
+                change, ticket = self._write(state, fresh, requests)
+        try:
+            # Outside the session's lock: changes arriving meanwhile share the next commit's fsync.
+            self.store.make_durable(ticket)
+        except BaseException:
+            with self._lock:  # the commit failed: rebuild the state from what is really stored
+                self._state = replay(self.study, self.record.seed, self.session_id,
+                                     self.store.events(self.session_id))
+            raise
+        return change
+
+    def _write(self, state: SessionState, fresh: list, requests: list) -> tuple[Change, int]:
+        """Store (durable once a commit carries it) and fold checked events into a new version.
+
+        The caller holds the lock. The new version is published once its events are written
+        inside the open transaction, so the next decision is checked against it; had a write
+        failed, the savepoint rolls back and the draft is dropped, so nothing is published.
+        """
+        draft = state.fork()
+        resolved: list[RoundOutcome] = []
+        with self.store.pending(self.session_id) as writer:
+            for kind, body, decision_id in fresh:
+                event, _ = writer.append(kind, body, decision_id)
+                done = draft.apply(kind, body, decision_id, event.id)
+                for outcome in done:
+                    audit, _ = writer.append("round_resolved", _audit(outcome))
+                    draft.seq = audit.id
+                resolved.extend(done)
+        self._state = draft
+        last_id = requests[-1][2]
+        receipt = draft.receipts.get(last_id) if last_id else None
+        return Change(draft.seq, True, tuple(resolved), receipt), writer.ticket
 
     def seat_snapshot(self, group: int, seat: int) -> dict[str, Any]:
-        with self._lock:
-            # the stock picture, talk countdown and revealed debrief (phone/view.py)
-            return add_to_seat_snapshot(self, group, seat, self.state.seat_snapshot(group, seat))
+        """The ``snapshot`` payload of one seat: a validated ``PhoneSnapshot`` as JSON (phone/view.py)."""
+        return seat_snapshot_payload(self.pinned(), group, seat)
 
     def payment_sheet(self) -> PaymentSheet:
-        with self._lock:
-            return payment_sheet(self.state, self.keys)
+        return payment_sheet(self.state, self.keys)
 
     def console_snapshot(self, online: dict[tuple[int, int], int] | None = None) -> dict[str, Any]:
-        with self._lock:
-            # small gauges, talk countdowns, the signal's parts (phone/view.py)
-            return add_to_console_snapshot(self, console_snapshot(self.state, self.keys, online or {}))
+        version = self.pinned()
+        # small gauges, talk countdowns, the signal's parts (phone/view.py)
+        return add_to_console_snapshot(version, console_snapshot(version.state, self.keys, online or {}))
 
 
 def _audit(outcome: RoundOutcome) -> dict[str, Any]:
@@ -207,15 +253,69 @@ def console_snapshot(
     }
 
 
+class StudyChanged(Refused):
+    """The study file differs from the one the stored session was created with."""
+
+    def __init__(self, session_id: str, stored_sha256: str, given_sha256: str):
+        self.session_id = session_id
+        self.stored_sha256 = stored_sha256
+        self.given_sha256 = given_sha256
+        super().__init__(
+            "study_changed",
+            f"the study file is not the one session {session_id} was created with "
+            f"(stored SHA-256 {stored_sha256}, this file {given_sha256}); nothing was started. "
+            "Either restore the study file the session was created with to continue it, "
+            "or start a new session from this file with --new-session",
+        )
+
+
+# How a session came to be served (printed by ``ebbtide serve``).
+NEW, RESUMED, REOPENED = "new", "resumed", "reopened"
+
+
+@dataclass(frozen=True)
+class Opening:
+    """The session served after start-up, how it came to be served, and its PIN if new."""
+
+    live: LiveSession
+    how: str  # NEW | RESUMED | REOPENED (it had ended: kept to read, pay and export)
+    pin: str | None
+
+
 class Registry:
-    """Every live session of one database, and the lookups phones need (on ``app.extensions``)."""
+    """Every live session of one database and all of its runtime state (on ``app.extensions``).
+
+    Runtime state is what the log does not hold: open sockets and their flood
+    counters, talk pauses, the language each seat's phone chose, and the
+    failure limiters of the PIN and code forms. It all lives here, one object
+    per app, each part behind its own lock.
+    """
 
     def __init__(self, store: Store):
         self.store = store
         self._lock = threading.Lock()
         self._sessions: dict[str, LiveSession] = {}
-        self.current_id: str | None = None
+        self._served: LiveSession | None = None  # one reference: current and current_id agree
         self._connections: dict[str, Any] = {}  # socket id -> who is connected on it
+        self.flood_lock = threading.Lock()  # guards the per-connection flood counters
+        self.talk_pauses = TalkPauses()
+        self._seat_languages: dict[tuple[str, int, int], str] = {}
+        self._limiters: dict[str, FailureLimiter] = {}
+
+    # -- runtime state -----------------------------------------------------------
+
+    def limiter(self, name: str) -> FailureLimiter:
+        """The failure limiter of one form (PIN, seat code), made on first use."""
+        with self._lock:
+            return self._limiters.setdefault(name, FailureLimiter())
+
+    def set_seat_language(self, session_id: str, group: int, seat: int, language: str) -> None:
+        with self._lock:
+            self._seat_languages[(session_id, group, seat)] = language
+
+    def seat_language(self, session_id: str, group: int, seat: int) -> str | None:
+        with self._lock:
+            return self._seat_languages.get((session_id, group, seat))
 
     def remember(self, sid: str, connection: Any) -> None:
         with self._lock:
@@ -244,16 +344,18 @@ class Registry:
             return [sid for sid, conn in self._connections.items()
                     if conn.role == "phone" and (conn.group, conn.seat) == (group, seat)]
 
+    # -- sessions ------------------------------------------------------------------
+
     def open(self, session_id: str) -> LiveSession:
         """Load (replay) a stored session and make it the one served."""
+        record = self.store.session(session_id)
+        if record is None:
+            raise KeyError(f"no session {session_id!r} in {self.store.path}")
+        live = LiveSession(self.store, record, self.store.seat_keys(session_id))
         with self._lock:
-            record = self.store.session(session_id)
-            if record is None:
-                raise KeyError(f"no session {session_id!r} in {self.store.path}")
-            live = LiveSession(self.store, record, self.store.seat_keys(session_id))
             self._sessions[session_id] = live
-            self.current_id = session_id
-            return live
+            self._served = live
+        return live
 
     def create(self, study: Study, seed: int, pin: str, now: datetime | None = None) -> LiveSession:
         """Store a new session for ``study`` with fresh seat keys and open it."""
@@ -286,52 +388,59 @@ class Registry:
         self.store.create_session(record, keys, body)
         return self.open(session_id)
 
-    def resumable(self, study: Study) -> str | None:
-        """Id of the latest session of this study that has not ended, if any."""
+    def latest_of(self, study: Study) -> SessionRecord | None:
+        """The latest stored session of this study (by its ``session.id``), ended or not."""
         for record in reversed(self.store.sessions()):
-            if parse_study(record.study_text).session.id != study.session.id:
-                continue
-            state = replay(parse_study(record.study_text), record.seed, record.session_id,
-                           self.store.events(record.session_id))
-            return record.session_id if state.status != "ended" else None
+            if parse_study(record.study_text).session.id == study.session.id:
+                return record
         return None
 
     def start_or_resume(
-        self, study: Study, seed: int | None, pin: str | None
-    ) -> tuple[LiveSession, str | None]:
-        """Resume the study's unfinished session, else create one; returns (session, new PIN or None).
+        self, study: Study, seed: int | None, pin: str | None, new_session: bool = False
+    ) -> Opening:
+        """Serve the study's latest session (resumed, or reopened if it has ended), else a new one.
 
-        A resumed session keeps its seed and PIN: the log is the truth. A PIN given
-        on resume must match the stored one.
+        A new session when none is stored or ``new_session`` asks for one. A stored
+        session keeps its seed and PIN (the log is the truth): a seed or PIN given
+        must match, and the study file must be the very one it was created with.
         """
-        session_id = self.resumable(study)
-        if session_id is not None:
-            live = self.open(session_id)
-            if pin is not None and not live.pin_matches(pin):
-                raise Refused(
-                    "wrong_pin",
-                    f"session {session_id} already has a console PIN and the one given differs; "
-                    "start without --pin to keep the stored one",
-                )
-            if seed is not None and seed != live.record.seed:
-                raise Refused(
-                    "wrong_seed",
-                    f"session {session_id} was created with seed {live.record.seed}, not {seed}; "
-                    "start without --seed to resume it",
-                )
-            return live, None
-        pin = pin or new_pin()
-        seed = secrets.randbits(63) if seed is None else seed
-        return self.create(study, seed, pin), pin
+        record = None if new_session else self.latest_of(study)
+        if record is None:
+            pin = pin or new_pin()
+            seed = secrets.randbits(63) if seed is None else seed
+            return Opening(self.create(study, seed, pin), NEW, pin)
+        stored_sha256 = parse_study(record.study_text).sha256
+        if stored_sha256 != study.sha256:
+            raise StudyChanged(record.session_id, stored_sha256, study.sha256)
+        if seed is not None and seed != record.seed:
+            raise Refused(
+                "wrong_seed",
+                f"session {record.session_id} was created with seed {record.seed}, not {seed}; "
+                "start without --seed to continue it, or with --new-session for a new one",
+            )
+        if pin is not None and not check_password_hash(record.pin_hash, pin):
+            raise Refused(
+                "wrong_pin",
+                f"session {record.session_id} already has a console PIN and the one given differs; "
+                "start without --pin to keep the stored one",
+            )
+        live = self.open(record.session_id)
+        return Opening(live, REOPENED if live.state.status == "ended" else RESUMED, None)
+
+    @property
+    def current_id(self) -> str | None:
+        served = self._served
+        return None if served is None else served.session_id
 
     @property
     def current(self) -> LiveSession:
-        if self.current_id is None:
+        served = self._served  # one read: safe from any thread
+        if served is None:
             raise LookupError("no session is open")
-        return self._sessions[self.current_id]
+        return served
 
     def seat_by_secret(self, secret: str) -> tuple[LiveSession, SeatKey] | None:
-        live = self._sessions.get(self.current_id) if self.current_id else None
+        live = self._served
         if live is None:
             return None
         for key in live.keys:
@@ -341,7 +450,7 @@ class Registry:
 
     def seat_by_short_code(self, typed: str) -> tuple[LiveSession, SeatKey] | None:
         code = normalise_short_code(typed)
-        live = self._sessions.get(self.current_id) if self.current_id else None
+        live = self._served
         if live is None or len(code) != SHORT_CODE_LENGTH:
             return None
         for key in live.keys:

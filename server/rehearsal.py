@@ -1,9 +1,11 @@
 """Rehearsal: bots play seats of a live session through its real sockets.
 
 Each bot is an ordinary Socket.IO client that presents a seat secret, exactly
-as a phone does (``agent = "bot"``, so its decisions are exported with source
-``bot``), and answers every open round it is shown using a pilot strategy read
-from its own participant view. A researcher uses it to try the room's router
+as a phone does, plus the session's rehearsal credential (``agent = "bot"``, so its
+decisions are exported with source ``bot``; a phone cannot claim that without the
+credential, which only the database holds), and answers every open round it is shown with a behaviour model
+(``game_logic.behaviour``) read from its own participant view: the same code and
+the same per-group draws as the pilot. A researcher uses it to try the room's router
 and laptop before the trip; tests use it to play whole sessions.
 """
 
@@ -16,21 +18,27 @@ from dataclasses import dataclass, field
 import numpy as np
 import socketio
 
-from ebbtide.game_logic.benchmarks import equal_share_of_sustainable_yield
+from ebbtide.game_logic.behaviour import Model, choose_from_view, make_model
 from ebbtide.game_logic.seeding import strategy_rng
-from ebbtide.game_logic.strategies import choose_from_view
 from ebbtide.game_logic.study import Study
 
+from .console.access import rehearsal_token
 from .store import SeatKey
 
 
 @dataclass
 class Bot:
-    """One seat played by a strategy; remembers what it sent and what came back."""
+    """One seat played by a behaviour model; remembers what it sent and what came back.
+
+    ``rng`` paces the bot (thinking time); its choices come from the model and the
+    seed tree, keyed by its group.
+    """
 
     key: SeatKey
-    strategy: str
-    share: int
+    token: str  # console/access.py rehearsal_token: derived from the session's key in the database
+    model: Model
+    study: Study
+    seed: int
     rng: np.random.Generator
     think_seconds: tuple[float, float]
     client: socketio.Client = field(default_factory=lambda: socketio.Client(reconnection=True))
@@ -46,7 +54,8 @@ class Bot:
         self.client.on("snapshot", self._on_snapshot)
         self.client.connect(
             url,
-            auth={"secret": self.key.secret, "device": f"bot-{self.key.short_code}", "agent": "bot"},
+            auth={"secret": self.key.secret, "device": f"bot-{self.key.short_code}", "agent": "bot",
+                  "rehearsal": self.token},
             transports=["websocket"],
             wait_timeout=10,
         )
@@ -79,7 +88,7 @@ class Bot:
             if not open_round or self._asking == where:
                 return
             self._asking = where
-            harvest = choose_from_view(self.strategy, view, self.share, self.rng)
+            harvest = choose_from_view(self.model, self.study, view, self.seed, self.key.group)
             pause = float(self.rng.uniform(*self.think_seconds))
         threading.Timer(pause, self._send, args=(where, harvest)).start()
 
@@ -154,7 +163,8 @@ def rehearse(
     url: str,
     study: Study,
     keys: list[SeatKey],
-    strategy: str = "conditional",
+    session_secret: str,
+    strategy: Model | str = "conditional",
     seed: int = 1,
     think_seconds: tuple[float, float] = (0.2, 1.5),
     max_seconds: float = 600.0,
@@ -164,10 +174,11 @@ def rehearse(
     The facilitator still paces the session from the console (start, open
     blocks, end): bots only answer the rounds they are shown.
     """
-    rng = strategy_rng(seed)
-    share = equal_share_of_sustainable_yield(study)
+    model = make_model(strategy, study) if isinstance(strategy, str) else strategy
+    token = rehearsal_token(session_secret)
+    pace = strategy_rng(seed)
     bots = [
-        Bot(key, strategy, share, np.random.default_rng(rng.integers(2**63)), think_seconds)
+        Bot(key, token, model, study, seed, np.random.default_rng(pace.integers(2**63)), think_seconds)
         for key in keys
     ]
     started = time.monotonic()

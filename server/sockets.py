@@ -4,8 +4,8 @@ The events themselves live with their client: ``phone/events.py`` and ``console/
 
 Phones identify themselves on every (re)connect with their seat secret and get
 a full snapshot with a sequence number, so a missed event never matters. What
-a phone receives is built only by ``SessionState.seat_snapshot`` (the
-treatment's ``participant_view`` plus neutral UI state). Every refusal reaches
+a phone receives as its screen is built only by ``game_logic.phone_snapshot``
+(a validated ``PhoneSnapshot``, sent as its JSON dump). Every refusal reaches
 the client twice: as the acknowledgement of its request and as a ``problem``
 event, each with a code and a message that says what is allowed.
 """
@@ -13,25 +13,33 @@ event, each with a code and a message that says what is allowed.
 from __future__ import annotations
 
 import functools
+import hmac
+import logging
 import time
 from collections import deque
 from collections.abc import Callable
 from dataclasses import dataclass
 
 from flask import current_app, request, session
-from flask_socketio import ConnectionRefusedError, emit, join_room
+from flask_socketio import ConnectionRefusedError, disconnect, emit, join_room
 from pydantic import BaseModel, ValidationError
 
-from ebbtide.game_logic.errors import Refused
+from ebbtide.game_logic.errors import EbbtideError, Refused, ServerError
 
 from .app import socketio
+from .console.access import COOKIE_KEY, logins, rehearsal_token, request_login
+from .console.refresh import refresh_for
+from .frame_guard import RESERVED_EVENTS
 from .messages import ConsoleAuth, PhoneAuth, from_validation_error
 from .phone.view import remember_language
 from .registry import LiveSession, Registry
+from .web import code_guard
 
 FLOOD_EVENTS = 20  # per phone connection, within FLOOD_SECONDS; a person taps far less
 CONSOLE_FLOOD_EVENTS = 60  # a facilitator typing slips seat by seat clicks more often
 FLOOD_SECONDS = 10.0
+
+log = logging.getLogger(__name__)
 
 
 @dataclass
@@ -44,6 +52,8 @@ class Connection:
     seat: int = -1
     agent: str = "phone"
     recent: deque | None = None
+    login: str = ""  # a console's server-side login id (console/access.py)
+    device: str = ""
 
 
 def registry() -> Registry:
@@ -77,9 +87,20 @@ def send_everyone(live: LiveSession) -> None:
     send_console(live)
 
 
-def send_console(live: LiveSession) -> None:
+def console_state(live: LiveSession) -> dict:
+    """The console's snapshot, with a warning when seat codes are being guessed (``ratelimit``)."""
     snapshot = live.console_snapshot(registry().online())
-    socketio.emit("console_state", snapshot, to=console_room(live.session_id))
+    snapshot["guessing"] = code_guard().report(time.monotonic())
+    return snapshot
+
+
+def send_console(live: LiveSession) -> None:
+    """Refresh the console soon: coalesced (console/refresh.py), so a burst of decisions is one state."""
+    refresh_for(current_app, live.session_id, send_console_now).request()
+
+
+def send_console_now(live: LiveSession) -> None:
+    socketio.emit("console_state", console_state(live), to=console_room(live.session_id))
 
 
 def flood_limit(role: str) -> int:
@@ -91,17 +112,21 @@ def flood_limit(role: str) -> int:
 def _flooding(conn: Connection) -> bool:
     now = time.monotonic()
     recent = conn.recent
-    while recent and now - recent[0] > FLOOD_SECONDS:
-        recent.popleft()
-    recent.append(now)
-    return len(recent) > flood_limit(conn.role)
+    with registry().flood_lock:  # one socket's events may run on several threads at once
+        while recent and now - recent[0] > FLOOD_SECONDS:
+            recent.popleft()
+        recent.append(now)
+        return len(recent) > flood_limit(conn.role)
 
 
-def _admit(event: str, role: str | None) -> Connection:
-    """The connection behind this request, if it may send ``event`` now; else ``Refused``."""
-    conn = registry().connection(request.sid)
+def _admit(event: str, role: str | None, sid: str | None = None) -> Connection:
+    """The connection behind this request (or ``sid``), if it may send ``event`` now; else ``Refused``."""
+    conn = registry().connection(sid or request.sid)
     if conn is None or (role is not None and conn.role != role):
         raise Refused("not_allowed", f"{event!r} is not allowed on this connection")
+    if conn.role == "console" and not logins().check(conn.login, conn.session_id, time.monotonic()):
+        raise Refused("logged_out", "this console login has ended (logged out, or idle too long); "
+                      "log in again with the PIN")
     if _flooding(conn):
         limit = flood_limit(conn.role)
         raise Refused("too_many", f"more than {limit} messages in {FLOOD_SECONDS:g} s; slow down")
@@ -109,7 +134,11 @@ def _admit(event: str, role: str | None) -> Connection:
 
 
 def edge(event: str, model: type[BaseModel], role: str) -> Callable:
-    """Register a handler that gets a checked message, or answers with a refusal."""
+    """Register a handler that gets a checked message, or answers with a refusal.
+
+    Every failure is answered (acknowledgement and ``problem`` event): a named
+    error with its code, anything unexpected with ``server_error``.
+    """
 
     def wrap(handler: Callable) -> Callable:
         @functools.wraps(handler)
@@ -123,8 +152,13 @@ def edge(event: str, model: type[BaseModel], role: str) -> Callable:
                 return handler(conn, registry().current, message)
             except ValidationError as exc:
                 refusal = from_validation_error(exc)
-            except Refused as exc:
+            except EbbtideError as exc:  # every named error of the core: its code and one line
                 refusal = exc
+            except Exception:
+                # Unexpected (a locked or full disk, a bug): logged here with its traceback,
+                # answered so the client stops waiting; nothing was stored, so it may resend.
+                log.exception("socket event %r failed unexpectedly", event)
+                refusal = ServerError()
             body = refusal.as_event(event)
             emit("problem", body)
             return body
@@ -133,6 +167,30 @@ def edge(event: str, model: type[BaseModel], role: str) -> Callable:
         return inner
 
     return wrap
+
+
+def phones_to_take_over_from(reg: Registry, group: int, seat: int, phone: PhoneAuth) -> list[str]:
+    """Sockets of other phones holding this seat now; refused unless the person confirmed taking over.
+
+    Two phones acting for one seat see each other's choices appear, so the second one is told
+    plainly and asked first (its page offers the take-over, which sends ``take_over``).
+    """
+    others = [sid for sid in reg.seat_sids(group, seat)
+              if (conn := reg.connection(sid)) is not None and conn.device != phone.device]
+    if others and not phone.take_over:
+        raise ConnectionRefusedError(
+            "this seat is already in use on another phone; take it over only if it is yours",
+            {"code": "seat_in_use"},
+        )
+    return others
+
+
+def let_go_of(live: LiveSession, sids: list[str]) -> None:
+    """Tell the phones a seat was taken over from, then close their connections."""
+    notice = Refused("seat_taken", "this seat was taken over on another phone").as_event("seat_taken")
+    for sid in sids:
+        socketio.emit("seat_taken", notice, to=sid)
+        disconnect(sid=sid, namespace="/")
 
 
 @socketio.on("connect")
@@ -147,11 +205,14 @@ def on_connect(auth=None):
             ConsoleAuth.model_validate(auth)
         except ValidationError as exc:
             raise ConnectionRefusedError(from_validation_error(exc).message) from exc
-        if session.get("console") != live.session_id:
-            raise ConnectionRefusedError("log in to the console with its PIN first")
-        reg.remember(request.sid, Connection("console", live.session_id, recent=deque()))
+        login = request_login(live.session_id, time.monotonic())
+        if login is None:
+            raise ConnectionRefusedError("log in to the console with its PIN first", {"code": "login_needed"})
+        login_id = session[COOKIE_KEY]
+        logins().attach(login_id, request.sid)
+        reg.remember(request.sid, Connection("console", live.session_id, recent=deque(), login=login_id))
         join_room(console_room(live.session_id))
-        emit("console_state", live.console_snapshot(reg.online()))
+        emit("console_state", console_state(live))
         return
     try:
         phone = PhoneAuth.model_validate(auth if auth is not None else {})
@@ -164,7 +225,13 @@ def on_connect(auth=None):
     if found is None:
         raise ConnectionRefusedError("this seat card does not belong to the session being played")
     live, key = found
+    if phone.agent == "bot" and not hmac.compare_digest(
+        phone.rehearsal or "", rehearsal_token(live.record.secret_key)
+    ):
+        raise ConnectionRefusedError("only the rehearsal command may play a seat as a bot; "
+                                     "a phone connects without 'agent'", {"code": "not_a_bot"})
     seat = (key.group, key.seat)
+    taken_from = phones_to_take_over_from(reg, key.group, key.seat, phone)
     if phone.device not in live.state.devices.get(seat, []):
         if seat in live.state.released and not phone.fresh:
             # A device the facilitator let go of comes back from its storage: it needs the card again.
@@ -174,9 +241,9 @@ def on_connect(auth=None):
             )
         live.submit("seat_claimed", {"group": key.group, "seat": key.seat, "device": phone.device,
                                      "via": "card" if phone.fresh else "stored"})
-    reg.remember(
-        request.sid, Connection("phone", live.session_id, key.group, key.seat, phone.agent, recent=deque())
-    )
+    reg.remember(request.sid, Connection("phone", live.session_id, key.group, key.seat, phone.agent,
+                                         recent=deque(), device=phone.device))
+    let_go_of(live, taken_from)
     join_room(group_room(live.session_id, key.group))
     join_room(seat_room(live.session_id, key.group, key.seat))
     remember_language(live, key.group, key.seat)  # the seat's words follow its phone
@@ -190,24 +257,25 @@ def on_disconnect(*_reason):
     reg = registry()
     conn = reg.connection(request.sid)
     reg.forget(request.sid)
+    if conn is not None and conn.login:
+        logins().detach(conn.login, request.sid)
     if conn is not None and conn.role == "phone" and reg.current_id == conn.session_id:
         send_console(reg.current)  # the console shows which phones are offline
 
 
-@socketio.on("*")
-def on_unknown(event, *_args):
-    """Any event nobody handles: refused, saying which events exist."""
+def refuse_unknown_event(sid: str, label: str) -> dict:
+    """An event that is not ours (unknown, a reserved name, not even a name): refused, flood-counted.
+
+    Called by ``frame_guard`` before python-socketio dispatches anything, so names like
+    ``connect`` or ``disconnect`` never reach the connection handlers.
+    """
     try:
-        _admit(str(event)[:40], None)
-        known = sorted(name for name in socketio.server.handlers.get("/", {}) if name not in RESERVED)
-        raise Refused("unknown_event", f"unknown event {str(event)[:40]!r}; allowed: {', '.join(known)}")
+        _admit(label, None, sid)
+        handlers = socketio.server.handlers.get("/", {})
+        known = sorted(name for name in handlers if name not in RESERVED_EVENTS)
+        raise Refused("unknown_event", f"unknown event {label!r}; allowed: {', '.join(known)}")
     except Refused as refusal:
-        body = refusal.as_event(str(event)[:40])
-        emit("problem", body)
-        return body
-
-
-RESERVED = frozenset({"connect", "disconnect", "*"})
+        return refusal.as_event(label)
 
 
 def _session_just_ended(live: LiveSession, change) -> bool:

@@ -1,13 +1,16 @@
-"""The shared HTTP edge: security headers on every answer, the health probe, access helpers."""
+"""The shared HTTP edge: health probe, origin checks, access helpers (headers: ``guard.GuardedWSGI``)."""
 
 from __future__ import annotations
 
 import re
+import time
 from functools import wraps
 
-from flask import Blueprint, abort, current_app, redirect, request, session, url_for
+from flask import Blueprint, abort, current_app, redirect, render_template, request, url_for
+from flask_babel import gettext as _
 
-from .ratelimit import FailureLimiter
+from .console.access import SAFE_METHODS, cross_origin, form_token_ok, request_login
+from .ratelimit import CodeGuard, FailureLimiter
 from .registry import LiveSession, Registry
 
 bp = Blueprint("web", __name__)
@@ -26,25 +29,17 @@ def live_session() -> LiveSession:
 
 
 def limiter(name: str) -> FailureLimiter:
-    limiters = current_app.extensions.setdefault("ebbtide_limiters", {})
-    return limiters.setdefault(name, FailureLimiter())
+    return registry().limiter(name)
+
+
+def code_guard() -> CodeGuard:
+    """The typed seat code's limits (per address, per device, one budget for all)."""
+    return current_app.extensions.setdefault("ebbtide_code_guard", CodeGuard())
 
 
 @bp.after_app_request
-def safety_headers(response):
-    """Nothing loads from elsewhere; a join link never leaks through a referrer."""
-    response.headers.setdefault(
-        "Content-Security-Policy",
-        "default-src 'self'; img-src 'self' data:; style-src 'self'; script-src 'self'; "
-        "connect-src 'self'; frame-ancestors 'none'; form-action 'self'",
-    )
-    response.headers.setdefault("X-Content-Type-Options", "nosniff")
-    response.headers.setdefault("Referrer-Policy", "no-referrer")
-    response.headers.setdefault("X-Frame-Options", "DENY")
-    # Seat links and console pages carry secrets or hidden values: never kept in a cache.
-    carries_secret = "secret" in (request.view_args or {}) or request.path.startswith("/console")
-    if carries_secret:
-        response.headers["Cache-Control"] = "no-store"
+def remember_language(response):
+    """A ``?lang=`` choice sticks for later pages (security headers: ``guard.GuardedWSGI``)."""
     lang = request.args.get("lang")
     if lang and registry().current_id and lang in registry().current.study.session.languages:
         response.set_cookie("lang", lang, samesite="Strict", max_age=30 * 86400)
@@ -58,12 +53,30 @@ def healthz():
 
 
 
+def _refuse_forged():
+    live = live_session()
+    message = _("This request did not come from this console's own page. Reload the console and try again.")
+    return render_template("teach_refused.html", title=live.study.session.title, message=message), 403
+
+
+@bp.before_app_request
+def refuse_other_origins():
+    """A form sent from another site (its Origin or Referer names it) changes nothing."""
+    if request.method not in SAFE_METHODS and cross_origin():
+        return _refuse_forged()
+    return None
+
+
 def console_required(view):
+    """A live server-side console login (``console/access.py``); forms must carry its token."""
+
     @wraps(view)
     def inner(*args, **kwargs):
-        if session.get("console") != live_session().session_id:
+        login = request_login(live_session().session_id, time.monotonic())
+        if login is None:
             return redirect(url_for("console.console_login"))
+        if request.method not in SAFE_METHODS and not form_token_ok(login):
+            return _refuse_forged()
         return view(*args, **kwargs)
 
     return inner
-

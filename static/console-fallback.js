@@ -10,6 +10,7 @@
     "console_pause_group", "console_resume_group", "console_release_seat"];
   var state = null;
   var shownKey = "";  // the table is rebuilt only when the group or its round changes, keeping typed values
+  var messageKey = "";  // the group and round the last message was shown in
 
   function fmt(key, values) {
     return (S[key] || key).replace(/%\((\w+)\)s/g, function (_, n) { return values[n]; });
@@ -39,6 +40,7 @@
   function say(ack, what) {
     $("fallback-problem").hidden = true;
     $("fallback-done").hidden = true;
+    messageKey = shownKey;
     if (ack && ack.ok) {
       $("fallback-done").textContent = fmt("done", { what: what });
       $("fallback-done").hidden = false;
@@ -175,6 +177,12 @@
     $("fallback-enter-all").disabled = !open;
     var key = g.group + "." + g.block + "." + g.round + "." + g.seats.length;
     if (key !== shownKey) { buildTable(g); shownKey = key; }
+    // "Stored: ..." and refusals belong to the round they were shown in, not to later ones.
+    if (messageKey && messageKey !== key) {
+      $("fallback-done").hidden = true;
+      $("fallback-problem").hidden = true;
+      messageKey = "";
+    }
     g.seats.forEach(function (s) {
       var tr = $("fallback-seats").querySelector('tr[data-seat="' + s.seat + '"]');
       var phone = tr.querySelector(".phone-cell");

@@ -30,7 +30,11 @@
 
   socket.on("connect", function () { $("connection").textContent = S.connected; });
   socket.on("disconnect", function () { $("connection").textContent = S.disconnected; });
-  socket.on("connect_error", function () { $("connection").textContent = S.disconnected; });
+  socket.on("connect_error", function (err) {
+    // The login ended (logged out elsewhere, idle too long, or the server restarted): ask for the PIN.
+    if (err && err.data && err.data.code === "login_needed") { window.location.assign("/console/login"); return; }
+    $("connection").textContent = S.disconnected;
+  });
   socket.on("console_state", function (s) {
     if (state && s.seq < state.seq) return;
     state = s;
@@ -56,8 +60,75 @@
     if (window.confirm($("end").textContent + "?")) act("console_end");
   });
 
+  // One seat's state for the overview: told by a symbol and a word, never by colour alone.
+  function seatState(s, g) {
+    if (s.devices === 0) return { cls: "seat-none", mark: "\u25cb", word: S.not_joined };
+    if (s.online === 0) return { cls: "seat-offline", mark: "\u2717", word: S.offline };
+    if (s.decided) return { cls: "seat-decided", mark: "\u2713", word: S.decided };
+    var open = state.status === "running" && !g.waiting_for_block && !g.session_over && !g.paused;
+    var others = g.seats.filter(function (x) { return x !== s; });
+    if (open && others.length && others.every(function (x) { return x.decided; })) {
+      return { cls: "seat-stuck", mark: "!", word: S.stuck };
+    }
+    return { cls: "seat-online", mark: "\u2022", word: S.online };
+  }
+
+  // A seat held by more than one phone (at once, or one after another since its last release).
+  function manyPhones(s) {
+    if (s.online > 1) return " \u00b7 " + fmt("phones", { n: s.online });
+    if (s.devices > 1) return " \u00b7 " + fmt("devices", { n: s.devices });
+    return "";
+  }
+
+  function groupLine(g) {
+    if (state.status === "setup") return S.status_setup;
+    return g.session_over ? S.group_done : g.waiting_for_block ? S.waiting_block : g.paused ? S.group_paused : S.playing;
+  }
+
+  function renderOverview() {
+    var seats = 0, joined = 0, decided = 0, offline = 0;
+    var grid = $("overview-grid");
+    grid.textContent = "";
+    state.groups.forEach(function (g) {
+      var tile = el("a", null, "tile");
+      tile.href = "#group-" + g.group;
+      tile.dataset.group = g.group;
+      tile.appendChild(el("span", g.group_id + " · " + S.round + " " + g.round + " · " + g.stock, "tile-title"));
+      tile.appendChild(el("span", groupLine(g), "tile-line"));
+      var marks = el("span", null, "tile-seats");
+      g.seats.forEach(function (s) {
+        var st = seatState(s, g);
+        seats += 1;
+        if (s.devices > 0) joined += 1;
+        if (s.decided) decided += 1;
+        if (s.devices > 0 && s.online === 0) offline += 1;
+        var many = manyPhones(s);
+        var mark = el("span", st.mark, "seat-mark " + st.cls + (many ? " seat-many" : ""));
+        mark.title = s.seat_id + ": " + st.word + many;
+        mark.setAttribute("aria-label", mark.title);
+        marks.appendChild(mark);
+      });
+      tile.appendChild(marks);
+      grid.appendChild(tile);
+    });
+    $("summary").textContent = fmt("summary", { joined: joined, seats: seats, decided: decided, offline: offline });
+  }
+
   function render() {
     if (!state) return;
+    var guessing = state.guessing;
+    $("guessing-warning").hidden = !guessing;
+    if (guessing) {
+      $("guessing-warning").textContent = fmt("guessing", { n: guessing.wrong_codes, minutes: guessing.minutes });
+    }
+    // The cautions come first before the start; afterwards they fold away below everything else.
+    var setup = $("setup");
+    if (state.status !== "setup" && !setup.dataset.folded) {
+      setup.dataset.folded = "1";
+      setup.open = false;
+      setup.parentNode.appendChild(setup);
+    }
+    renderOverview();
     $("status-word").textContent = S["status_" + state.status];
     $("start").disabled = state.status !== "setup" || !$("cautions-read").checked;
     $("start").hidden = state.status !== "setup";
@@ -99,9 +170,9 @@
   function groupCard(g) {
     var card = el("section", null, "card group");
     card.dataset.group = g.group;
+    card.id = "group-" + g.group;
     card.appendChild(el("h2", S.group + " " + g.group_id));
-    var line = g.session_over ? S.group_done : g.waiting_for_block ? S.waiting_block :
-      g.paused ? S.group_paused : S.playing;
+    var line = groupLine(g);
     if (g.practice && state.status !== "setup") card.appendChild(el("p", "\u270E " + S.practice, "notice"));
     card.appendChild(el("p", S.block + " " + g.block + "/" + state.blocks + " (" + g.block_name + ", " +
       g.treatment + ") · " + S.round + " " + g.round + " · " + S.stock + " " + g.stock + " · " + line, "state-line"));
@@ -114,13 +185,21 @@
     teachParts(card, hidden, g);
 
     var seats = el("table");
-    seats.appendChild(row([S.seat, S.code, S.joined, S.decided, S.points], true));
+    seats.appendChild(row([S.seat, S.code, S.phone, S.decided, S.points, ""], true));
     g.seats.forEach(function (s) {
-      var joined = mark(s.devices > 0);
-      if (s.devices > 1) joined.textContent += " (" + fmt("devices", { n: s.devices }) + ")";
+      var st = seatState(s, g);
+      var phone = el("span", st.mark + " " + (s.decided ? (s.online ? S.online : S.offline) : st.word),
+                     "seat-word " + st.cls);
+      phone.textContent += manyPhones(s);
+      if (manyPhones(s)) phone.classList.add("seat-many-word");
       var decided = mark(s.decided);
       if (s.decided) decided.textContent += " (" + s.harvest + ")";
-      seats.appendChild(row([s.seat_id, s.short_code, joined, decided, s.points], false));
+      // Trying the game on one laptop: each tab opened here holds one seat.
+      var tab = el("a", S.try_seat, "try-seat");
+      tab.href = "/console/seat/" + g.group + "/" + s.seat;
+      tab.target = "_blank";
+      tab.rel = "noopener";
+      seats.appendChild(row([s.seat_id, s.short_code, phone, decided, s.points, tab], false));
     });
     card.appendChild(seats);
 
@@ -142,7 +221,9 @@
     results.appendChild(row([S.block, S.round, S.stock, S.asked, S.taken, S.left, S.after,
       S.crossed + " *", S.flip + " *"], true));
     g.rounds.slice().reverse().forEach(function (r) {
-      results.appendChild(row([r.block, r.round, r.stock_before, r.asked.join(" "), r.taken.join(" "),
+      // A seat that had not decided when the round was closed asked nothing: a dash, not 0.
+      var asked = r.asked.map(function (a, i) { return r.sources[i] === "closed" ? "\u2013" : a; });
+      results.appendChild(row([r.block, r.round, r.stock_before, asked.join(" "), r.taken.join(" "),
         r.remaining, r.stock_after + (r.end_reason ? " (" + S.ended_by + ": " + r.end_reason + ")" : ""),
         r.hidden.crossed ? S.yes : S.no, r.hidden.flip_draw], false));
     });

@@ -106,24 +106,89 @@
   }
   socket.on("seat_released", released);
 
+  // A choice the server could not store (no answer, or server_error) stays pending here and is
+  // sent again with the same id, waiting longer each time while connected; a resend is never
+  // counted twice. On reconnect it is sent at once.
+  var RETRY_FIRST_MS = 1000, RETRY_MAX_MS = 30000;
+  var retryDelay = RETRY_FIRST_MS;
+  var retryTimer = null;
+  var retrying = false;
+
+  function stopRetry() {
+    if (retryTimer) window.clearTimeout(retryTimer);
+    retryTimer = null;
+    retryDelay = RETRY_FIRST_MS;
+  }
+
+  function retryLater(decision) {
+    retrying = true;
+    render();
+    if (retryTimer) window.clearTimeout(retryTimer);
+    retryTimer = window.setTimeout(function () {
+      retryTimer = null;
+      var still = pending();
+      if (socket.connected && still && still.decision_id === decision.decision_id) send(still);
+    }, retryDelay);
+    retryDelay = Math.min(retryDelay * 2, RETRY_MAX_MS);
+  }
+
+  // Another phone holds this seat now: say so plainly, and take it over only when asked to.
+  function offerTakeOver(message) {
+    var box = $("take-over");
+    if (!box) {
+      box = document.createElement("div");
+      box.id = "take-over";
+      box.className = "card take-over";
+      box.setAttribute("role", "alert");
+      var text = document.createElement("p");
+      text.className = "notice notice-problem";
+      var button = document.createElement("button");
+      button.type = "button";
+      button.className = "primary wide";
+      button.textContent = S.take_over;
+      button.addEventListener("click", function () {
+        box.hidden = true;
+        socket.auth.take_over = true;
+        socket.connect();
+      });
+      box.appendChild(text);
+      box.appendChild(button);
+      $("game").insertBefore(box, $("game").firstChild);
+    }
+    box.firstChild.textContent = message;
+    box.hidden = false;
+    $("connection").textContent = "";
+  }
+  socket.on("seat_taken", function () { offerTakeOver(S.seat_taken); });
+
   function send(decision) {
     socket.timeout(8000).emit("harvest", decision, function (err, ack) {
-      if (err) return;  // no answer: it is resent on the next connect, with the same id
       var still = pending();
-      if (still && still.decision_id === decision.decision_id) setPending(null);
+      if (!still || still.decision_id !== decision.decision_id) return;
+      if (err || !ack || ack.code === "server_error") return retryLater(decision);
+      stopRetry();
+      retrying = false;
+      setPending(null);
       if (!ack.ok) showProblem(ack);
       render();
     });
   }
 
   socket.on("connect", function () {
+    socket.auth.take_over = false;  // asked once; a later reconnect asks again
     $("connection").textContent = "";
+    stopRetry();
     var decision = pending();
     if (decision) send(decision);
   });
-  socket.on("disconnect", function () { $("connection").textContent = S.offline; });
+  socket.on("disconnect", function () {
+    stopRetry();  // the next connect sends it again
+    var box = $("take-over");
+    if (!box || box.hidden) $("connection").textContent = S.offline;
+  });
   socket.on("connect_error", function (err) {
     if (err && err.data && err.data.code === "seat_released") return released(err);
+    if (err && err.data && err.data.code === "seat_in_use") return offerTakeOver(S.seat_in_use);
     $("connection").textContent = err && /seat card/.test(err.message) ? S.unknown_seat : S.offline;
   });
   socket.on("snapshot", function (s) {
@@ -134,7 +199,9 @@
     talkEndsAt = s.talk_remaining > 0 ? Date.now() + s.talk_remaining * 1000 : null;
     render();
   });
-  socket.on("problem", showProblem);
+  socket.on("problem", function (p) {
+    if (p.code !== "server_error") showProblem(p);  // that one is retried; the status line says so
+  });
 
   function showProblem(p) {
     $("problem").textContent = fmt("problem", { message: p.message });
@@ -155,6 +222,7 @@
     var decision = { decision_id: randomId(), block: v.block, round: v.round, harvest: choice,
                      practice: !!v.practice, language: document.documentElement.lang, pictures: pictorial };
     setPending(decision);
+    retrying = false;
     $("problem").hidden = true;
     render();
     send(decision);
@@ -273,7 +341,8 @@
     $("result-title").textContent = S.last_round + " (" + last.round + ")";
     var list = $("result-list");
     list.textContent = "";
-    fact(list, S.you_asked, last.asked);
+    // A round the facilitator closed before this seat's choice arrived: not "you asked for 0".
+    fact(list, S.you_asked, snap.missed_last_round ? S.no_choice : last.asked);
     fact(list, S.you_got, last.taken + " (+" + last.points + ")");
     if (last.others) fact(list, S.others_took, last.others.join(", "));
     fact(list, S.group_took, last.group_total);
@@ -296,6 +365,30 @@
     $("rationed").hidden = !last.rationed;
   }
 
+  var debriefPage = 0;
+  function debriefPager(d) {
+    var bar = document.createElement("div");
+    bar.className = "debrief-pager";
+    function step(label, arrow, to, id) {
+      var b = document.createElement("button");
+      b.type = "button";
+      b.id = id;
+      b.textContent = arrow;  // the words stay for screen readers and as a tooltip
+      b.setAttribute("aria-label", label);
+      b.title = label;
+      b.disabled = to < 0 || to >= d.blocks.length;
+      b.addEventListener("click", function () { debriefPage = to; renderDebrief(d); });
+      return b;
+    }
+    var count = document.createElement("span");
+    count.className = "pager-count";
+    count.textContent = (debriefPage + 1) + " / " + d.blocks.length;
+    bar.appendChild(step(S.debrief_previous, "\u2190", debriefPage - 1, "debrief-previous"));
+    bar.appendChild(count);
+    bar.appendChild(step(S.debrief_next, "\u2192", debriefPage + 1, "debrief-next"));
+    return bar;
+  }
+
   function renderDebrief(d) {
     $("debrief").hidden = !d;
     if (!d) return;
@@ -305,14 +398,19 @@
     if (!d.blocks.length) {
       var none = document.createElement("p"); none.textContent = S.debrief_none; body.appendChild(none);
     }
-    d.blocks.forEach(function (b) {
+    // One part a screen: a six-part debrief would otherwise be five phone screens long.
+    debriefPage = Math.min(debriefPage, Math.max(0, d.blocks.length - 1));
+    if (d.blocks.length > 1) body.appendChild(debriefPager(d));
+    d.blocks.forEach(function (b, i) {
+      if (i !== debriefPage) return;
       var h = document.createElement("h3");
-      h.textContent = fmt("debrief_part", { n: b.part, name: b.name });
+      // The study's participant-facing label, if it gave one; never the researcher's block name.
+      h.textContent = b.label ? fmt("debrief_part", { n: b.part, name: b.label }) : fmt("debrief_part_plain", { n: b.part });
       var chart = document.createElement("div");
       chart.className = "debrief-chart";
       chart.innerHTML = b.svg;  // drawn and escaped by the server, after the facilitator's reveal
       var level = document.createElement("p");
-      if (b.threshold !== null) {
+      if (b.threshold != null) {  // absent when the study has no danger level
         level.textContent = fmt("debrief_level", { level: b.threshold, recovery: b.recovery_level }) + " " +
           (b.crossed_round ? fmt("debrief_crossed", { round: b.crossed_round }) : S.debrief_never);
       }
@@ -334,6 +432,8 @@
     $("seat-line").textContent = fmt("your_seat", { seat: v.seat, seats: v.seats }) + " · " +
       (v.rounds_in_block ? fmt("block_round_of", { block: v.block, blocks: v.blocks, round: v.round, rounds: v.rounds_in_block })
                          : fmt("block_round", { block: v.block, blocks: v.blocks, round: v.round }));
+    $("block-label").textContent = v.block_label || "";
+    $("block-label").hidden = !v.block_label;
     $("gauge").innerHTML = snap.gauge_svg;  // drawn on the server from this seat's view only
     var danger = dangerText(v.danger);
     $("danger").textContent = danger;
@@ -352,7 +452,7 @@
     else if (snap.status === "paused") status = S.paused;
     else if (snap.waiting_for_block || v.block_over) status = S.waiting_block;
     else if (snap.decided) status = fmt("recorded", { n: snap.my_harvest });
-    else if (mine) status = S.sending;
+    else if (mine) status = retrying ? S.retrying : S.sending;
     else canChoose = true;
     $("status").textContent = status;
     $("chooser").hidden = !canChoose;

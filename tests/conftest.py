@@ -84,11 +84,15 @@ class Phone:
         self.client.disconnect()
 
 
-def connect_phone(url: str, secret: str, device: str = "test-device-1", agent: str = "phone") -> Phone:
+def connect_phone(url: str, secret: str, device: str = "test-device-1", agent: str = "phone",
+                  rehearsal: str | None = None) -> Phone:
     client = socketio.Client(reconnection=False)
     phone = Phone(client)
     client.on("*", lambda event, data=None: phone.received.append((event, data)))
-    client.connect(url, auth={"secret": secret, "device": device, "agent": agent},
+    auth = {"secret": secret, "device": device, "agent": agent}
+    if rehearsal:
+        auth["rehearsal"] = rehearsal  # the bots' credential (ebbtide rehearse)
+    client.connect(url, auth=auth,
                    transports=["websocket"], wait_timeout=WAIT_SECONDS)
     return phone
 
@@ -107,9 +111,14 @@ class Console:
 
 
 def console_login(url: str, pin: str) -> requests.Session:
+    """A logged-in console browser; ``http.form_token`` is the hidden field its forms send."""
     http = requests.Session()
     response = http.post(f"{url}/console/login", data={"pin": pin}, allow_redirects=False, timeout=5)
     assert response.status_code == 303, response.text
+    page = http.get(f"{url}/console", timeout=5).text
+    found = re.search(r'name="form_token" value="([^"]+)"', page)
+    assert found, "the console page carries no form token"
+    http.form_token = found.group(1)
     return http
 
 

@@ -18,6 +18,11 @@ language = "en"
 languages = ["en", "es", "fr"]
 teaching_view = {teaching_view}
 
+[session.label]
+en = "The cockle flats"
+es = "Las marismas de berberechos"
+fr = "Les vasières à coques"
+
 [groups]
 count = 6
 seats_per_group = 2
@@ -37,6 +42,7 @@ shown_range = [25, 50]
 
 [[blocks]]
 name = "told"
+label = {{ en = "First tides", es = "Primeras mareas", fr = "Premières marées" }}
 treatments = ["none", "vague", "range", "exact", "risk", "signal"]
 rounds = 2
 

@@ -20,7 +20,8 @@ from ebbtide.server.serving import build_server
 pytestmark = pytest.mark.browser
 
 LEVEL_SHOWN = "37.9"  # the threshold as exact/risk show it (one decimal)
-HIDDEN_TEXTS = ("37.91", "52.9")  # the full threshold and the recovery level: never before the reveal
+HIDDEN_TEXTS = ("37.91", "52.9")
+SHOT_LANGUAGES = ("en", "es", "fr")  # the full threshold and the recovery level: never before the reveal
 PHONE = {"viewport": {"width": 360, "height": 740}, "device_scale_factor": 2, "is_mobile": True,
          "has_touch": True}
 
@@ -33,6 +34,32 @@ def _shot(page, name: str) -> None:
 def _countdown_seconds(page) -> int:
     minutes, seconds = page.locator("#talk-countdown").inner_text().split(":")
     return int(minutes) * 60 + int(seconds)
+
+
+def _open_in(page, url: str, lang: str) -> None:
+    page.goto(f"{url}/play?lang={lang}")
+    wait_until(lambda: page.evaluate("document.documentElement.lang") == lang, f"the {lang} page")
+    page.locator("#gauge svg").wait_for()
+    page.locator("#chooser").wait_for(state="visible")
+
+
+def _shoot_languages(page, url: str, treatment: str) -> dict[str, tuple[str, str]]:
+    """Screenshots at 360 x 640 and 360 x 740 in en, es and fr, then back in English.
+
+    Returns, per language, the page's heading and block label as the phone shows them.
+    """
+    seen = {}
+    ARTIFACTS.mkdir(exist_ok=True)
+    for lang in SHOT_LANGUAGES:
+        _open_in(page, url, lang)
+        seen[lang] = (page.locator("h1").inner_text(), page.locator("#block-label").inner_text())
+        for height in (640, 740):
+            page.set_viewport_size({"width": 360, "height": height})
+            page.screenshot(path=str(ARTIFACTS / f"phone-{treatment}-{lang}-360x{height}.png"))
+        _shot(page, f"phone-{treatment}-{lang}-full.png")
+    _open_in(page, url, "en")  # the seat's language follows its phone: back to what the tests read
+    page.set_viewport_size(PHONE["viewport"])
+    return seen
 
 
 class Scenario(dict):
@@ -51,7 +78,7 @@ def scenario(browser, tmp_path_factory):
     app.config["EBBTIDE_PUBLIC_URL"] = url
     live = app.extensions["ebbtide"].current
     key = {(k.group, k.seat): k for k in live.keys}
-    out = Scenario(url=url, screens={}, frames={g: [] for g in range(6)}, requested=[], html={})
+    out = Scenario(url=url, screens={}, frames={g: [] for g in range(6)}, requested=[], html={}, labels={})
     contexts, others = [], []
     console = connect_console(url, "2468")
     try:
@@ -87,6 +114,10 @@ def scenario(browser, tmp_path_factory):
                 "danger_visible": page.locator("#danger").is_visible(),
             }
             _shot(page, f"treatment-{treatment}.png")
+
+        # Every treatment's screen in every catalogue language at two phone heights (for people to look at).
+        for g, treatment in enumerate(TREATMENTS):
+            out["labels"][treatment] = _shoot_languages(pages[g], url, treatment)
 
         # Pictorial mode on the `exact` phone: choose by tapping unit icons; remembered on reload.
         page = pages[3]
@@ -344,3 +375,16 @@ def test_console_shows_a_small_gauge_per_group(scenario):
 def test_pages_load_nothing_from_elsewhere(scenario):
     assert scenario["requested"]
     assert all(url.startswith(scenario["url"]) for url in scenario["requested"])
+
+
+def test_phones_show_the_participant_labels_in_their_language_never_the_researcher_names(scenario):
+    # teach_study labels the session and block 1 in en, es and fr; "told" and the title are the researcher's.
+    expected = {"en": ("The cockle flats", "First tides"),
+                "es": ("Las marismas de berberechos", "Primeras mareas"),
+                "fr": ("Les vasières à coques", "Premières marées")}
+    for treatment in TREATMENTS:
+        assert scenario["labels"][treatment] == expected, treatment
+    for g in range(6):
+        received = scenario["wire_before_reveal"][g] + scenario["html"][g]
+        assert "Fennick cockle flats (test)" not in received and '"told"' not in received
+        assert "talk-and-see" not in received

@@ -39,6 +39,15 @@ def test_check_fails_with_the_wrong_key(tmp_path):
     assert "resource.capacity: holds -5" in result.output
 
 
+def test_check_warns_when_a_participant_label_names_the_treatment(tmp_path):
+    telling = tmp_path / "telling.toml"
+    telling.write_text(DEMO.read_text().replace('en = "Second tides"', 'en = "Range season"'))
+    result = CliRunner().invoke(main, ["check", str(telling)])
+    assert result.exit_code == 0
+    assert "warning: blocks.1.label.en = 'Range season' names the treatment range" in result.output
+    assert "(1 warning(s))" in result.output
+
+
 def test_pilot_writes_the_contract_tables(tmp_path):
     result = CliRunner().invoke(
         main, ["pilot", str(DEMO), "--groups", "3", "--seed", "4", "--strategy", "max",

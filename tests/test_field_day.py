@@ -147,6 +147,20 @@ def test_stages_in_order_with_a_second_try():
     assert [right for _, right, _ in state.day.seats[(0, 0)].attempts["q1"]] == [False, True]
 
 
+def test_a_forked_version_keeps_its_field_day_when_the_fork_moves_on():
+    # Reference: the fold of exactly the events up to the version's seq (as tests/test_session_versions.py).
+    version = SessionState.new(day_study(), 7, "s")
+    consent(version, 0, True)
+    draft = version.fork()
+    consent(draft, 1, False)
+    event(draft, "instruction_step", group=0, seat=0, step=1)
+    event(draft, "instructions_led", group=0, step=1)
+    reference = SessionState.new(day_study(), 7, "s")
+    consent(reference, 0, True)
+    assert version.day.seats == reference.day.seats and version.day.led_step == reference.day.led_step
+    assert draft.day.seats[(0, 1)].consent == "declined" and draft.day.seats[(0, 0)].step == 1
+
+
 def play_round(state: SessionState, practice: bool, block: int, round_number: int, harvests: dict[int, int]):
     for seat, harvest in harvests.items():
         event(state, "harvest_submitted", group=0, seat=seat, block=block, round=round_number,
@@ -250,5 +264,6 @@ def test_closing_a_practice_round_gives_missing_seats_nothing_and_pays_nothing()
     event(state, "round_closed", group=0, block=1, round=2)  # the second practice round
     progress = state.groups[0]
     assert [o.taken for o in progress.practice_outcomes] == [(4, 0, 0), (0, 0, 0)]
-    assert progress.practice_sources[0] == ("phone", "console", "console")
+    # Seats that had not decided when the round was closed are recorded as closed (it took 0).
+    assert progress.practice_sources[0] == ("phone", "closed", "closed")
     assert progress.waiting and progress.units == [0, 0, 0]

@@ -147,14 +147,14 @@ def test_whole_field_day_exports_and_pays_the_same_everywhere(start_server, tmp_
         if (g, s) == declining:
             assert (row["source"], row["harvest_asked"], row["points"]) == ("absent", "", "")
             continue
-        practice = row["practice"] == "true"
+        practice = row["practice"] == "1"  # booleans are written 0/1 (exports/schema.py)
         event = harvest_events[(g, s, int(row["block"]), int(row["round"]), practice)]
         assert datetime.fromisoformat(row["stored_at"]) == at[event.id]
         opened = max(i for i in openers[g] if i < event.id)
         assert abs(float(row["seconds_from_open"]) - (at[event.id] - at[opened]).total_seconds()) < 0.0015
         assert row["language"] == ("fr" if (g, s) == (1, 0) else "en")
-        assert row["pictures"] == ("true" if (g, s) == (1, 1) else "false")
-    assert sum(r["practice"] == "true" for r in decisions) == 6
+        assert row["pictures"] == ("1" if (g, s) == (1, 1) else "0")
+    assert sum(r["practice"] == "1" for r in decisions) == 6
 
     # -- surveys: answers, attempts and consent, with their stored times ---------------------
     surveys = read_csv(out / "surveys.csv")
@@ -162,7 +162,7 @@ def test_whole_field_day_exports_and_pays_the_same_everywhere(start_server, tmp_
     assert all(r["time"] == times[int(r["event_id"])] for r in surveys)
     tries = [(r["answer"], r["correct"]) for r in surveys
              if r["seat_id"] == "G01-1" and r["questionnaire"] == "comprehension"]
-    assert tries == [("1", "false"), ("2", "true")]
+    assert tries == [("1", "0"), ("2", "1")]
     consent = next(r for r in surveys if r["seat_id"] == "G01-3" and r["questionnaire"] == "consent")
     assert consent["answer"] == "decline"
     assert consent["text_sha256"] == hashlib.sha256(study.consent.text["en"].encode("utf-8")).hexdigest()

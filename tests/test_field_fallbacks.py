@@ -13,6 +13,7 @@ from conftest import (
     WAIT_SECONDS,
     connect_console,
     connect_every_seat,
+    connect_phone,
     console_login,
     wait_until,
 )
@@ -86,14 +87,14 @@ def test_paper_slips_with_one_bad_value_store_nothing(session):
     assert phones[(1, 1)].harvest("decided-first", 1, 1, 5)["ok"]
     before = len(logged(server))
     ack = console.act("console_slips", {"batch_id": "slips-bad-01", "group": 2, "block": 1, "round": 1,
-                                        "harvests": [3, 4]})
+                                        "harvests": [3, 4], "by": "MK"})
     assert not ack["ok"] and ack["code"] == "already_decided" and "correction" in ack["message"]
     ack = console.act("console_slips", {"batch_id": "slips-bad-02", "group": 2, "block": 1, "round": 1,
-                                        "harvests": [3, 99]})
+                                        "harvests": [3, 99], "by": "MK"})
     assert not ack["ok"] and ack["code"] == "invalid_harvest" and "seat 2" in ack["message"]
     assert len(logged(server)) == before
     assert console.act("console_slips", {"batch_id": "slips-good-1", "group": 2, "block": 1, "round": 1,
-                                         "harvests": [3, None]})["ok"]
+                                         "harvests": [3, None], "by": "MK"})["ok"]
     assert server.live.state.groups[1].outcomes[0].asked == (3, 5)
 
 
@@ -124,7 +125,7 @@ def test_correction_supersedes_the_entry_while_the_round_is_open(session):
                                             "round": 1, "harvest": 2, "supersedes": entry, "by": "MK"})
     assert fixed["ok"]
     stale = console.act("console_correct", {"decision_id": "fix-entry-2", "group": 1, "seat": 1, "block": 1,
-                                            "round": 1, "harvest": 3, "supersedes": entry})
+                                            "round": 1, "harvest": 3, "supersedes": entry, "by": "MK"})
     assert stale["code"] == "stale_entry"
     assert phones[(0, 1)].harvest("other-seat", 1, 1, 5)["ok"]
     assert server.live.state.groups[0].outcomes[0].asked == (2, 5)
@@ -141,7 +142,7 @@ def test_correction_of_a_resolved_round_is_refused_as_immutable(session):
     entry = next(e.id for e in logged(server) if e.decision_id == "resolved-a")
     before = len(logged(server))
     ack = console.act("console_correct", {"decision_id": "too-late-1", "group": 1, "seat": 1, "block": 1,
-                                          "round": 1, "harvest": 1, "supersedes": entry})
+                                          "round": 1, "harvest": 1, "supersedes": entry, "by": "MK"})
     assert ack["code"] == "round_resolved" and "cannot change" in ack["message"]
     assert len(logged(server)) == before
 
@@ -190,28 +191,48 @@ def test_phone_cannot_use_any_console_fall_back(session):
     assert len(logged(server)) == before
 
 
-def _raw_phone(url, secret, device, fresh):
-    """A phone client that records connect errors and seat_released notices."""
+def _raw_phone(url, secret, device, fresh, take_over=False):
+    """A phone client that records connect errors, seat_released and seat_taken notices."""
     client = socketio.Client(reconnection=False)
-    seen = {"errors": [], "released": [], "snapshots": []}
+    seen = {"errors": [], "released": [], "snapshots": [], "taken": []}
     client.on("connect_error", seen["errors"].append)
     client.on("seat_released", seen["released"].append)
+    client.on("seat_taken", seen["taken"].append)
     client.on("snapshot", seen["snapshots"].append)
-    client.connect(url, auth={"secret": secret, "device": device, "fresh": fresh},
+    client.connect(url, auth={"secret": secret, "device": device, "fresh": fresh, "take_over": take_over},
                    transports=["websocket"], wait_timeout=WAIT_SECONDS)
     return client, seen
 
 
-def test_second_device_shows_on_the_console_and_release_leaves_only_the_card_holder(session):
+def test_a_second_phone_on_a_held_seat_is_told_it_is_in_use_and_changes_nothing(session):
+    server, phones, console = session
+    before = len(logged(server))
+    errors = []
+    client = socketio.Client(reconnection=False)
+    client.on("connect_error", errors.append)
+    with pytest.raises(socketio.exceptions.ConnectionError):
+        client.connect(server.url, auth={"secret": server.key(0, 0).secret, "device": "second-device-1",
+                                         "fresh": True}, transports=["websocket"], wait_timeout=WAIT_SECONDS)
+    assert errors[0]["data"]["code"] == "seat_in_use"
+    assert "already in use on another phone" in errors[0]["message"]
+    assert len(logged(server)) == before and phones[(0, 0)].client.connected
+    # The same phone coming back (a reload while its old connection lingers) is not a second phone.
+    again = connect_phone(server.url, server.key(0, 0).secret, device="device-0-0")
+    again.close()
+
+
+def test_second_device_takes_over_shows_on_the_console_and_release_leaves_only_the_card_holder(session):
     server, phones, console = session
     secret = server.key(0, 0).secret
-    second, second_seen = _raw_phone(server.url, secret, "second-device-1", fresh=True)
+    second, second_seen = _raw_phone(server.url, secret, "second-device-1", fresh=True, take_over=True)
     seat = wait_until(lambda: console.states[-1]["groups"][0]["seats"][0]["devices"] == 2
+                      and console.states[-1]["groups"][0]["seats"][0]["online"] == 1
                       and console.states[-1]["groups"][0]["seats"][0], "the console to show two devices")
-    assert seat["online"] == 2
+    assert seat["online"] == 1  # the first phone was let go of, and told why
+    wait_until(lambda: not phones[(0, 0)].client.connected, "the first phone to be let go")
+    assert any(name == "seat_taken" for name, _ in phones[(0, 0)].received)
     assert console.act("console_release_seat", {"group": 1, "seat": 1, "by": "MK"})["ok"]
-    wait_until(lambda: not phones[(0, 0)].client.connected and not second.connected, "both to be let go")
-    assert any(name == "seat_released" for name, _ in phones[(0, 0)].received)
+    wait_until(lambda: not second.connected, "the second phone to be let go")
     assert second_seen["released"][0]["code"] == "seat_released"
     # The older device comes back from its storage: refused, and told why.
     with pytest.raises(socketio.exceptions.ConnectionError):
@@ -263,3 +284,20 @@ def test_phone_http_client_gets_no_console_page_export_or_cards(session):
         response = requests.get(f"{server.url}{path}", allow_redirects=False, timeout=5)
         assert response.status_code in (302, 303) and "/console/login" in response.headers["Location"], path
         assert server.keys[0].secret not in response.text
+
+
+@pytest.mark.parametrize("by", ["", "   "])
+def test_console_entries_without_initials_are_refused_and_store_nothing(session, by):
+    server, _phones, console = session
+    before = len(logged(server))
+    for event, body in [
+        ("console_enter", {"decision_id": "no-initials-1", "group": 1, "seat": 1, "block": 1, "round": 1,
+                           "harvest": 3, "by": by}),
+        ("console_slips", {"batch_id": "no-initials-2", "group": 1, "block": 1, "round": 1,
+                           "harvests": [1, 2], "by": by}),
+        ("console_correct", {"decision_id": "no-initials-3", "group": 1, "seat": 1, "block": 1, "round": 1,
+                             "harvest": 3, "supersedes": 1, "by": by}),
+    ]:
+        ack = console.act(event, body)
+        assert ack["code"] == "initials_needed" and "Your initials" in ack["message"], event
+    assert len(logged(server)) == before

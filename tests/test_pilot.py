@@ -51,5 +51,5 @@ def test_conditional_cooperators_vary_but_stay_within_limits():
 
 
 def test_unknown_strategy_names_the_allowed_ones():
-    with pytest.raises(ValueError, match="allowed: max, sustainable, conditional"):
+    with pytest.raises(ValueError, match="allowed: selfish, sustainable, conditional, logit"):
         run_pilot(DEMO, groups=2, seed=1, strategy="greedy")

@@ -80,8 +80,9 @@ def test_exhaustion_ends_the_block():
     state, out = _play(study, state, [10, 10, 10, 10])
     assert out.stock_after == 0 and out.block_over and out.end_reason == "exhausted"
     assert state.session_over
-    with pytest.raises(RoundClosed, match="is over"):
+    with pytest.raises(RoundClosed, match="last block") as closed:
         _play(study, state, [0, 0, 0, 0])
+    assert closed.value.code == "session_over"
 
 
 def test_fixed_block_ends_after_its_rounds():

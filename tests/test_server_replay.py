@@ -4,7 +4,9 @@ from __future__ import annotations
 
 import pytest
 
+from ebbtide.exports.tables import decision_rows
 from ebbtide.game_logic.errors import Refused
+from ebbtide.game_logic.phone_snapshot import phone_snapshot
 from ebbtide.game_logic.rounds import resolve, start_block
 from ebbtide.game_logic.seeding import round_rng
 from ebbtide.game_logic.session_fold import SessionState
@@ -74,12 +76,22 @@ def test_second_decision_of_a_seat_in_one_round_is_refused(log):
         log.state.check("harvest_submitted", harvest(0, 0, 5))
 
 
-def test_closed_round_gives_missing_seats_zero_from_the_console(log):
+def test_closed_round_records_missing_seats_as_no_decision_not_a_console_zero(log, demo_study):
     log("session_started")
     log("harvest_submitted", harvest(1, 1, 6))
     (outcome,) = log("round_closed", {"group": 1, "block": 1, "round": 1})
-    assert outcome.asked == (0, 6)
-    assert log.state.groups[1].sources == [("console", "phone")]
+    assert outcome.asked == (0, 6)  # the seat takes nothing...
+    assert log.state.groups[1].sources == [("closed", "phone")]  # ...but nobody typed a 0
+    rows = decision_rows(demo_study, "s", outcome, log.state.groups[1].sources[0])
+    assert [(r["harvest_asked"], r["source"]) for r in rows] == [("", "closed"), (6, "phone")]
+    from test_phone_snapshot import EnglishPainter
+
+    def snapshot(seat):
+        return phone_snapshot(log.state, 1, seat, language="en", talk_remaining=None,
+                              painter=EnglishPainter())
+
+    assert snapshot(0).missed_last_round is True
+    assert snapshot(1).missed_last_round is False
 
 
 def test_block_waits_for_the_facilitator_then_opens(log, demo_study):
@@ -106,12 +118,3 @@ def test_session_ends_by_itself_after_every_group_played_the_last_block(log, dem
             for k in range(1, demo_study.blocks[b].rounds + 1):
                 log("round_closed", {"group": g, "block": b + 1, "round": k})
     assert log.state.status == "ended"
-
-
-def test_snapshot_holds_no_hidden_values(log):
-    log("session_started")
-    log("harvest_submitted", harvest(0, 0, 3))
-    log("harvest_submitted", harvest(0, 1, 3))
-    text = repr(log.state.seat_snapshot(0, 0))
-    for hidden in ("threshold", "flip", "regime", "seed"):
-        assert hidden not in text

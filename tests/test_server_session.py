@@ -5,6 +5,7 @@ from __future__ import annotations
 import csv
 import subprocess
 import sys
+import warnings
 
 import pandas as pd
 import pytest
@@ -92,8 +93,15 @@ def test_whole_session_export_matches_independent_replay(session, demo_study, tm
         assert int(row["harvest_taken"]) == outcome.taken[s]
         assert row["source"] == "phone"
     assert {row["group_id"] for row in rounds} == {"G01", "G02"}
-    crossed = {row["group_id"] for row in rounds if row["crossed"] == "true"}
+    crossed = {row["group_id"] for row in rounds if row["crossed"] == "1"}  # flags are written 0/1
     assert crossed == {"G02"}
+    # The Frictionless validator accepts the live export too, keys and foreign keys included.
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        import frictionless
+
+        report = frictionless.validate(str(out / "datapackage.json"))
+    assert report.valid, report.flatten(["rowNumber", "fieldName", "type", "note"])[:5]
     # The optional Stata copy holds the same rows (read back with pandas).
     stata_rounds = pd.read_stata(out / "rounds.dta")
     assert len(stata_rounds) == len(rounds)
@@ -178,14 +186,18 @@ def test_reconnecting_phone_gets_a_full_snapshot_with_its_recorded_choice(sessio
         again.close()
 
 
-def test_console_close_round_gives_missing_seats_zero_from_console(session):
+def test_console_close_round_records_the_missing_seat_as_closed_and_tells_its_phone(session):
     server, phones, console = session
     console.act("console_start")
     phones[(0, 0)].harvest("only-one", 1, 1, 6)
     assert console.act("console_close_round", {"group": 1})["ok"]
     outcome = server.live.state.groups[0].outcomes[0]
     assert outcome.asked == (6, 0)
-    assert server.live.state.groups[0].sources[0] == ("phone", "console")
+    assert server.live.state.groups[0].sources[0] == ("phone", "closed")
+    late = phones[(0, 1)].wait_for(lambda s: "last_round" in s["view"], "the closed round's result")
+    assert late["missed_last_round"] is True
+    decided = phones[(0, 0)].wait_for(lambda s: "last_round" in s["view"], "the result")
+    assert decided["missed_last_round"] is False
 
 
 def test_console_sees_hidden_threshold_marked_hidden(session):

@@ -103,3 +103,51 @@ def test_between_groups_treatments_rotate_over_groups():
     study = load_study(Path(__file__).parent.parent / "examples" / "between-groups.toml")
     block = study.blocks[0]
     assert [block.treatment_for(g) for g in range(6)] == ["none", "exact", "signal"] * 2
+
+
+# -- participant-facing labels ------------------------------------------------
+# Keeping the design from participants (they must not read which arm they are in) is
+# common practice in experiments, no source; the checks below are the study file's rules.
+
+
+def test_shipped_examples_label_the_session_and_every_block_in_every_offered_language():
+    for path in EXAMPLES:
+        study = load_study(path)
+        for language in study.session.languages:
+            assert study.session_label(language) not in (None, study.session.title), (path.name, language)
+            for b, block in enumerate(study.blocks):
+                assert study.block_label(b, language) not in (None, block.name), (path.name, language)
+
+
+def test_a_label_in_a_language_the_session_does_not_offer_is_refused():
+    text = _demo_with('name = "told-range"\nlabel = {', 'name = "told-range"\nlabel = { de = "Zweite",')
+    (problem,) = _problems(text)
+    assert problem.startswith("blocks.1.label has text in ['de']") and "session.languages" in problem
+
+
+def test_a_label_keyed_by_something_else_than_a_language_code_is_refused():
+    problems = _problems(_demo_with("[session.label]\n", "[session.label]\nsubtitle = \"x\"\n"))
+    assert problems == ["session.label: 'subtitle' is not a language code; allowed: codes such as en, es, fr"]
+
+
+def test_labels_that_name_a_treatment_or_a_researcher_block_name_are_warned_about():
+    study = parse_study(_demo_with('fr = "Secondes marées"', 'fr = "Marées: exact"').replace(
+        'es = "Primeras mareas"', 'es = "first-season"'))
+    warnings = [w for w in design_warnings(study) if "label" in w]
+    told = "blocks.1.label.fr = 'Marées: exact' names the treatment exact"
+    assert any(w.startswith(told) for w in warnings)
+    assert any("blocks.0.label.es" in w and "block name 'first-season'" in w for w in warnings)
+    assert len(warnings) == 2
+
+
+def test_a_label_missing_an_offered_language_is_warned_about_and_falls_back_to_the_session_language():
+    study = parse_study(_demo_with(', fr = "Premières marées"', ""))
+    assert design_warnings(study) == [
+        "blocks.0.label has no text in ['fr']: phones in that language show the 'en' text"]
+    assert study.block_label(0, "fr") == "First tides"
+
+
+def test_without_a_session_label_there_is_no_participant_title():
+    table = '[session.label]\nen = "The cockle beds of Brackwater"\nes = "Los berberechos de Brackwater"\n'
+    study = parse_study(_demo_with(table + 'fr = "Les coques de Brackwater"\n', ""))
+    assert study.session_label("en") is None and study.block_label(0, "en") == "First tides"

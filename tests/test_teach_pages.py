@@ -65,6 +65,11 @@ def test_signal_phones_get_words_and_the_console_gets_the_hidden_parts(session):
     assert set(group["hidden"]["health"]) >= {"score", "level", "pace", "slowing"}
 
 
+def reveal(server, http):
+    """The debrief page's reveal button: a console form with its token."""
+    return http.post(server.url + "/console/debrief/reveal", data={"form_token": http.form_token}, timeout=5)
+
+
 def test_debrief_pages_need_the_console_pin(session):
     server, _, _ = session
     for path in ("/console/debrief", "/console/debrief/handout/1", "/teach"):
@@ -80,7 +85,7 @@ def test_reveal_while_the_session_runs_is_refused_and_changes_nothing(session):
     console.act("console_start")
     http = console_login(server.url, server.pin)
     events_before = len(server.live.store.events(server.live.session_id))
-    response = http.post(server.url + "/console/debrief/reveal", timeout=5)
+    response = reveal(server, http)
     assert response.status_code == 409
     assert "only after the session has ended" in response.text
     assert len(server.live.store.events(server.live.session_id)) == events_before
@@ -91,7 +96,7 @@ def test_reveal_after_the_end_is_logged_and_shows_each_phone_its_own_group(sessi
     server, console, phones = session
     _play_to_the_end(server, console, phones)
     http = console_login(server.url, server.pin)
-    assert http.post(server.url + "/console/debrief/reveal", timeout=5).ok
+    assert reveal(server, http).ok
     phone = phones[(2, 1)]
     debrief = phone.wait_for(lambda s: s["debrief"], "a revealed debrief")["debrief"]
     assert [b["threshold"] for b in debrief["blocks"]] == [round(THRESHOLD, 1)] * 2
@@ -104,7 +109,7 @@ def test_reveal_after_the_end_is_logged_and_shows_each_phone_its_own_group(sessi
     live = server.live
     rebuilt = replay(live.study, live.record.seed, live.session_id, live.store.events(live.session_id))
     assert rebuilt.debrief_revealed
-    again = http.post(server.url + "/console/debrief/reveal", timeout=5)
+    again = reveal(server, http)
     assert again.status_code == 409 and "already been revealed" in again.text
 
 

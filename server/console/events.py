@@ -37,9 +37,7 @@ def _groups(live: LiveSession, target: GroupTarget, ready: Callable[[int], bool]
         if not chosen:
             raise Refused("nothing_to_do", "no group is in a state where this applies")
         return chosen
-    if target.group > live.study.groups.count:
-        count = live.study.groups.count
-        raise Refused("unknown_group", f"group {target.group} does not exist; allowed: 1..{count}")
+    live.state.group(target.group - 1)
     return [target.group - 1]
 
 
@@ -47,11 +45,7 @@ def _groups(live: LiveSession, target: GroupTarget, ready: Callable[[int], bool]
 def on_close_round(conn: Connection, live: LiveSession, msg: GroupTarget):
     """Facilitator: resolve the open round now; seats that have not decided take 0."""
 
-    def open_round(g: int) -> bool:
-        progress = live.state.groups[g]
-        return not (progress.waiting or progress.state.block_over)
-
-    for g in _groups(live, msg, open_round):
+    for g in _groups(live, msg, live.state.round_is_open):
         state = live.state.groups[g].playing  # the practice stock while the group practises
         live.submit("round_closed", {"group": g, "block": state.block + 1, "round": state.round + 1})
         send_group(live, g)

@@ -24,8 +24,12 @@ from ..sockets import (
 
 
 def _console_body(msg, **extra) -> dict:
+    """An entry's event body; refused without initials, so the log says who typed it."""
+    if not msg.by.strip():
+        raise Refused("initials_needed", "type your initials in the 'Your initials' box first; "
+                      "every harvest typed at the console is stored with them")
     body = {"group": msg.group - 1, "block": msg.block, "round": msg.round, "source": "console",
-            "by": msg.by or "console"}
+            "by": msg.by.strip()}
     body.update(extra)
     return body
 
@@ -40,9 +44,7 @@ def _after_group_change(live: LiveSession, group: int, change) -> None:
 
 
 def _check_group(live: LiveSession, group: int) -> None:
-    if group > live.study.groups.count:
-        count = live.study.groups.count
-        raise Refused("unknown_group", f"group {group} does not exist; allowed: 1..{count}")
+    live.state.group(group - 1)  # 1-based here; the core's one range check
 
 
 @edge("console_enter", ConsoleHarvest, role="console")

@@ -14,9 +14,12 @@ from flask_babel import gettext as _
 
 from ebbtide.game_logic.money import decimal_text
 
+from ..app import socketio
+from ..phone.view import participant_title
 from ..registry import SHORT_CODE_ALPHABET
 from ..store.export import export_session
 from ..web import console_required, limiter, live_session
+from . import access
 from .payment_sheet import money, sheet_csv
 
 bp = Blueprint("console", __name__)
@@ -37,8 +40,9 @@ def console_login():
             problem, status = _("Too many wrong PINs. Try again in %(s)s seconds.", s=int(wait) + 1), 429
         elif live.pin_matches(request.form.get("pin", "")[:40]):
             guard.succeeded(who)
+            access.logins().revoke(session.get(access.COOKIE_KEY))
             session.clear()
-            session["console"] = live.session_id
+            session[access.COOKIE_KEY] = access.logins().open(live.session_id, time.monotonic())
             return redirect(url_for("console.console"), code=303)
         else:
             guard.failed(who, time.monotonic())
@@ -47,10 +51,27 @@ def console_login():
 
 
 @bp.post("/console/logout")
+@console_required
 def console_logout():
-    """Forget the console login on this browser."""
+    """End this console login on the server: the cookie opens nothing any more, its sockets close."""
+    for sid in access.logins().revoke(session.get(access.COOKIE_KEY)):
+        socketio.server.disconnect(sid)
     session.clear()
     return redirect(url_for("console.console_login"), code=303)
+
+
+@bp.app_context_processor
+def console_form_token() -> dict:
+    """``form_token()`` in console templates: the hidden field every console form sends."""
+
+    def form_token() -> str:
+        registry = current_app.extensions["ebbtide"]
+        if registry.current_id is None:
+            return ""
+        login = access.request_login(registry.current_id, time.monotonic())
+        return login.form_token if login else ""
+
+    return {"form_token": form_token, "form_token_field": access.FORM_FIELD}
 
 
 @bp.get("/console")
@@ -60,6 +81,20 @@ def console():
     live = live_session()
     return render_template("console.html", title=live.study.session.title, session_id=live.session_id,
                            study=live.study)
+
+
+@bp.get("/console/seat/<int:group>/<int:seat>")
+@console_required
+def open_seat(group: int, seat: int):
+    """Try the game on one laptop: a new tab takes one seat, as its card's QR code would."""
+    live = live_session()
+    key = next((k for k in live.keys if (k.group + 1, k.seat + 1) == (group, seat)), None)
+    if key is None:
+        message = _("There is no seat %(seat)s in group %(group)s; groups run from 1 to %(groups)s, "
+                    "seats from 1 to %(seats)s.", seat=seat, group=group, groups=live.study.groups.count,
+                    seats=live.study.seats)
+        return render_template("teach_refused.html", title=live.study.session.title, message=message), 404
+    return redirect(url_for("phone.join_by_card", secret=key.secret), code=303)
 
 
 def join_base_url() -> str:
@@ -83,12 +118,10 @@ def seat_cards():
             "qr_svg": segno.make(link, error="m").svg_inline(border=2, omitsize=True),
         })
     sheets = [cards[i:i + CARDS_PER_SHEET] for i in range(0, len(cards), CARDS_PER_SHEET)]
-    response = current_app.make_response(render_template(
-        "cards.html", title=live.study.session.title, sheets=sheets, join_url=f"{base}/play",
+    return render_template(
+        "cards.html", title=participant_title(live.study), sheets=sheets, join_url=f"{base}/play",
         alphabet=SHORT_CODE_ALPHABET,
-    ))
-    response.headers["Cache-Control"] = "no-store"
-    return response
+    )
 
 
 @bp.get("/console/export.zip")

@@ -18,7 +18,7 @@ from dataclasses import dataclass
 
 from flask import current_app
 
-from ebbtide.game_logic.errors import Refused
+from ebbtide.game_logic.errors import Refused, UnknownGroup
 
 from ..messages import GroupTarget
 
@@ -74,15 +74,14 @@ class TalkPauses:
 
 
 def pauses() -> TalkPauses:
-    return current_app.extensions.setdefault("ebbtide_talk", TalkPauses())
+    return current_app.extensions["ebbtide"].talk_pauses  # runtime state lives in the registry
 
 
 def open_round_key(live, group: int) -> RoundKey | None:
     """The group's open round if it is in a talk block and can be played now, else None."""
     state = live.state
-    progress = state.groups[group]
-    gs = progress.state
-    if state.status != "running" or progress.waiting or gs.block_over or gs.session_over:
+    gs = state.groups[group].state
+    if state.status != "running" or not state.round_is_open(group):
         return None
     if not live.study.blocks[gs.block].talk:
         return None
@@ -116,11 +115,9 @@ def register_console_events(edge, send_group, send_console) -> None:
     """Console events that extend or end a group's talk pause (wired by ``sockets``)."""
 
     def _key(live, msg: GroupTarget) -> RoundKey:
-        if msg.group is None or msg.group > live.study.groups.count:
-            raise Refused(
-                "unknown_group",
-                f"name one group for the talk pause; allowed: 1..{live.study.groups.count}",
-            )
+        if msg.group is None:
+            raise UnknownGroup(f"name one group for the talk pause; allowed: 1..{live.study.groups.count}")
+        live.state.group(msg.group - 1)
         key = open_round_key(live, msg.group - 1)
         if key is None:
             raise Refused("talk_over", f"group {msg.group} is not in a talk round that can be played now")

@@ -2,13 +2,15 @@
 
 from __future__ import annotations
 
+import secrets
 import time
 
-from flask import Blueprint, redirect, render_template, request, url_for
+from flask import Blueprint, current_app, redirect, render_template, request, url_for
 from flask_babel import gettext as _
 
 from ..registry import SHORT_CODE_LENGTH
-from ..web import SECRET_PATTERN, limiter, live_session, registry
+from ..web import SECRET_PATTERN, code_guard, live_session, registry
+from .view import participant_title
 
 bp = Blueprint("phone", __name__)
 
@@ -31,9 +33,11 @@ def phone_strings() -> dict[str, str]:
         "more": _("Take one more"),
         "confirm": _("Confirm: take %(n)s"),
         "sending": _("Sending your choice…"),
+        "retrying": _("Your choice is not saved yet. It is kept on this phone and sent again in a moment."),
         "recorded": _("Your choice is recorded: %(n)s. Waiting for the others."),
         "last_round": _("Last round"),
         "you_asked": _("You asked for"),
+        "no_choice": _("no choice reached the laptop in time"),
         "you_got": _("You got"),
         "group_took": _("Your group took"),
         "others_took": _("The others took"),
@@ -58,6 +62,12 @@ def phone_strings() -> dict[str, str]:
         "problem": _("Not accepted: %(message)s"),
         "unknown_seat": _("This seat card is not part of the game being played. Ask the facilitator."),
         "seat_released": _("The facilitator released this seat. If it is yours, scan your seat card again."),
+        "seat_in_use": _("This seat is already in use on another phone. If it is your seat, take it over: "
+                         "the other phone then stops playing it."),
+        "seat_taken": _("This seat was taken over on another phone. If it is your seat, take it back."),
+        "take_over": _("Take over this seat"),
+        "debrief_previous": _("Previous part"),
+        "debrief_next": _("Next part"),
     }
 
 
@@ -72,7 +82,7 @@ def _render_phone(secret: str | None = None, problem: str | None = None, status:
     live = live_session()
     return render_template(
         "phone.html",
-        title=live.study.session.title,
+        title=participant_title(live.study),  # never the researcher's session.title
         secret=secret or "",
         problem=problem,
         strings=phone_strings(),
@@ -95,25 +105,43 @@ def join_by_card(secret: str):
     return _render_phone(secret=secret)
 
 
+DEVICE_COOKIE = "join_device"
+
+
 @bp.post("/join")
 def join_by_code():
-    """A typed short code: checked (with a limit on guesses), then on to the seat's page."""
-    who = request.remote_addr or "?"
-    guard = limiter("code")
-    wait = guard.wait_seconds(who, time.monotonic())
+    """A typed short code: checked (with limits on guesses), then on to the seat's page.
+
+    Failures count per address and per device (a cookie) and against one budget for
+    everyone; a success clears nothing, so mixing in one's own code buys no guesses.
+    """
+    device = request.cookies.get(DEVICE_COOKIE, "")
+    if not SECRET_PATTERN.match(device):
+        device = secrets.token_urlsafe(18)
+    keys = [f"address:{request.remote_addr or '?'}", f"device:{device}"]
+    guard = code_guard()
+    now = time.monotonic()
+    wait = guard.wait_seconds(keys, now)
     if wait > 0:
-        return _render_phone(problem=_("Too many wrong codes. Try again in %(s)s seconds.", s=int(wait) + 1),
-                             status=429)
-    found = registry().seat_by_short_code(request.form.get("code", "")[:40])
-    if found is None:
-        guard.failed(who, time.monotonic())
-        return _render_phone(
+        page, status = _render_phone(problem=_("Too many wrong codes. Try again in %(s)s seconds.",
+                                               s=int(wait) + 1), status=429)
+    else:
+        found = registry().seat_by_short_code(request.form.get("code", "")[:40])
+        if found is not None:
+            return redirect(url_for("phone.join_by_card", secret=found[1].secret), code=303)
+        guard.failed(keys, now)
+        if guard.report(now) is not None:
+            from ..sockets import send_console  # sockets registers handlers on import; imported late
+
+            send_console(live_session())  # the console shows that codes are being guessed
+        page, status = _render_phone(
             problem=_("That code is not a seat of this game. A code has %(n)s letters and digits "
                       "(no 0, O, 1 or I), as printed on your card.", n=SHORT_CODE_LENGTH),
             status=400,
         )
-    guard.succeeded(who)
-    return redirect(url_for("phone.join_by_card", secret=found[1].secret), code=303)
+    response = current_app.make_response((page, status))
+    response.set_cookie(DEVICE_COOKIE, device, max_age=86400, httponly=True, samesite="Strict")
+    return response
 
 
 # -- console ---------------------------------------------------------------

@@ -1,9 +1,10 @@
-"""What the shell adds to a seat's snapshot: the stock picture, the talk countdown, a revealed debrief.
+"""The phone's snapshot as the shell sends it: the core's validated model, drawn in the seat's language.
 
-Every addition is drawn from the treatment's ``participant_view`` (the gauge reads
-the view dict only) or is neutral pacing state; the debrief comes only after the
-facilitator revealed it. Words are in the seat's own language: the one its phone
-chose (remembered when it connects), else the study's ``session.language``.
+What a phone may receive is decided by ``game_logic.phone_snapshot.phone_snapshot``
+alone; this module only supplies what the core cannot: the seat's language (the one
+its phone chose, remembered when it connects, else the study's ``session.language``),
+the talk countdown (the shell owns the clock) and a painter that draws the gauge, the
+debrief charts and sentences from the already validated parts of the model.
 """
 
 from __future__ import annotations
@@ -16,17 +17,30 @@ from flask_babel import force_locale, get_locale
 from flask_babel import gettext as _
 
 from ebbtide.game_logic.early_warning import health_reading
-from ebbtide.game_logic.field_day_view import field_day_screen
+from ebbtide.game_logic.phone_snapshot import DebriefFacts, PhoneView, phone_snapshot
 from ebbtide.game_logic.treatments import participant_view
 
 from ..console.day import add_day_to_console_snapshot
 from ..console.talk import talk_remaining
+from ..pictures.chart import PHONE, stock_path_svg
 from ..pictures.gauge import stock_gauge_svg
-from ..teach.revealed import phone_debrief
+from ..teach.revealed import chart_labels, plain_sentence
 
 
 def gauge_labels() -> dict[str, str]:
-    """The gauge's words (keys of ``gauge.DEFAULT_LABELS``) in the current language."""
+    """The gauge's words (keys of ``gauge.DEFAULT_LABELS``) in the current language.
+
+    Looked up once per language: every seat snapshot needs them, and thirteen gettext calls
+    per snapshot were the largest cost of a round with hundreds of phones (docs/performance.md).
+    """
+    cache = current_app.extensions.setdefault("ebbtide_gauge_labels", {})
+    language = str(get_locale())
+    if language not in cache:
+        cache[language] = _gauge_labels_now()
+    return dict(cache[language])
+
+
+def _gauge_labels_now() -> dict[str, str]:
     return {
         "stock": _("Stock"),
         "stock_of": _("of {capacity} {unit}"),
@@ -44,30 +58,52 @@ def gauge_labels() -> dict[str, str]:
     }
 
 
-def _languages() -> dict[tuple[str, int, int], str]:
-    return current_app.extensions.setdefault("ebbtide_seat_languages", {})
-
-
 def remember_language(live, group: int, seat: int) -> None:
-    """Called on a phone's connect: its page's language becomes the seat's."""
-    _languages()[(live.session_id, group, seat)] = str(get_locale() or live.study.session.language)
+    """Called on a phone's connect: its page's language becomes the seat's (kept in the registry)."""
+    language = str(get_locale() or live.study.session.language)
+    current_app.extensions["ebbtide"].set_seat_language(live.session_id, group, seat, language)
 
 
 def seat_language(live, group: int, seat: int) -> str:
-    return _languages().get((live.session_id, group, seat), live.study.session.language)
+    chosen = current_app.extensions["ebbtide"].seat_language(live.session_id, group, seat)
+    return chosen or live.study.session.language
 
 
-def add_to_seat_snapshot(live, group: int, seat: int, snapshot: dict[str, Any]) -> dict[str, Any]:
-    """The snapshot plus ``gauge_svg``, ``talk_remaining`` (seconds or None) and ``debrief``."""
+class PhonePainter:
+    """Draws a snapshot's pictures and sentences in one language, from validated model parts only."""
+
+    def __init__(self, language: str):
+        self.language = language
+
+    def gauge(self, view: PhoneView) -> str:
+        with force_locale(self.language):
+            return stock_gauge_svg(view.model_dump(mode="json"), labels=gauge_labels(), id_prefix="stock")
+
+    def debrief_sentence(self, facts: DebriefFacts, unit: str) -> str:
+        with force_locale(self.language):
+            return plain_sentence(facts.model_dump(mode="json"), unit)
+
+    def debrief_chart(self, facts: DebriefFacts, capacity: int) -> str:
+        # A phone is narrow: its picture leaves the what-if lines to the sentence.
+        drawn = {"block": facts.part - 1, "stock_path": facts.stock_path, "threshold": facts.threshold,
+                 "recovery_level": facts.recovery_level, "crossed_round": facts.crossed_round}
+        with force_locale(self.language):
+            return stock_path_svg(drawn, capacity, facts.degraded_rounds, labels=chart_labels(),
+                                  id_prefix=f"mine-b{facts.part}", layout=PHONE)
+
+    def caution(self) -> str:
+        with force_locale(self.language):
+            return _("This game is a teaching device: its stock and danger level are invented and "
+                     "are not a forecast for any real fishery, forest or pasture.")
+
+
+def seat_snapshot_payload(live, group: int, seat: int) -> dict[str, Any]:
+    """What the ``snapshot`` event carries to a seat's phones: the validated model, as JSON."""
     language = seat_language(live, group, seat)
-    # The field day's stage and its words (the core's gate: game_logic/field_day_view.py).
-    snapshot["field_day"] = field_day_screen(live.state, group, seat, language).model_dump()
-    with force_locale(language):
-        snapshot["gauge_svg"] = stock_gauge_svg(snapshot["view"], labels=gauge_labels(), id_prefix="stock")
-        snapshot["debrief"] = phone_debrief(live, group)
     left = talk_remaining(live, group)
-    snapshot["talk_remaining"] = None if left is None else round(left, 1)
-    return snapshot
+    model = phone_snapshot(live.state, group, seat, language=language, talk_remaining=left,
+                           painter=PhonePainter(language))
+    return model.payload()
 
 
 def add_to_console_snapshot(live, snapshot: dict[str, Any]) -> dict[str, Any]:
@@ -113,6 +149,7 @@ def phone_more_strings() -> dict[str, str]:
         "others_none": _("The others' choices are not shown, only the group's total."),
         "debrief_title": _("The danger level, revealed"),
         "debrief_part": _("Part %(n)s: %(name)s"),
+        "debrief_part_plain": _("Part %(n)s"),
         "debrief_level": _("The danger level was %(level)s; above %(recovery)s the stock recovers."),
         "debrief_crossed": _("Your group's stock crossed it in round %(round)s."),
         "debrief_never": _("Your group's stock never crossed it."),
@@ -159,6 +196,14 @@ def field_day_strings() -> dict[str, str]:
         "day_total": _("To collect"),
         "day_collect": _("Show your seat card to the facilitator to be paid."),
     }
+
+
+def participant_title(study) -> str:
+    """The session's name as participants read it (phone, seat cards, projector), in the page's language.
+
+    The study's ``session.label``; else a neutral name, never the researcher's ``session.title``.
+    """
+    return study.session_label(str(get_locale() or study.session.language)) or _("Harvest game")
 
 
 def language_choices(current: str, offered: tuple[str, ...]) -> list[dict[str, str]]:

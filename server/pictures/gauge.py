@@ -272,14 +272,21 @@ def _trend_arrow(trend: str, cx: float, cy: float) -> str:
     )
 
 
+def _fit(text: str, room: float, largest: int, em: float = 0.62) -> int:
+    """Font size at which ``text`` fits ``room`` px (rough glyph width ``em``), at most ``largest``."""
+    return int(max(14, min(largest, room / (em * max(len(text), 1)))))
+
+
 def _signal(danger: dict[str, Any], labels: dict[str, str]) -> list[str]:
     band, trend = danger["band"], danger["trend"]
+    # Translated words differ in length ("Tranquilo", "en baisse"): shrink them to their room
+    # so the band word never runs into the arrow, nor the trend word off the picture.
     return [
         _band_badge(band, 38, 232),
         _text(68, 230, labels["health"], size=15),
-        _text(68, 253, labels[band], size=26, weight="bold"),
+        _text(68, 253, labels[band], size=_fit(labels[band], 200 - 68, 26, em=0.66), weight="bold"),
         _trend_arrow(trend, 222, 236),
-        _text(246, 245, labels[trend], size=22),
+        _text(246, 245, labels[trend], size=_fit(labels[trend], WIDTH - 4 - 246, 22, em=0.58)),
     ]
 
 

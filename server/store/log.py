@@ -5,6 +5,13 @@ is updated in place; a correction is a new event that references the old one.
 Every write goes through one connection behind one lock (one writer), in WAL
 mode with ``synchronous=FULL``, so an event is on disk when ``append`` returns:
 acknowledged means stored.
+
+Group commit: a live change is written with ``pending`` (inside the open transaction) and
+made durable with ``make_durable`` once the caller has let go of its own lock. Whoever
+finds no commit running commits everything written so far with one fsync; changes that
+arrive meanwhile wait and go together in the next one. So a burst of decisions costs a few
+fsyncs rather than one each (measured in bench/live_load.py, docs/performance.md), and
+nothing is acknowledged before its commit returns.
 """
 
 from __future__ import annotations
@@ -12,7 +19,8 @@ from __future__ import annotations
 import json
 import sqlite3
 import threading
-from collections.abc import Iterator
+import time
+from collections.abc import Callable, Iterator
 from contextlib import contextmanager
 from dataclasses import dataclass
 from datetime import UTC, datetime
@@ -22,6 +30,9 @@ from typing import Any
 import sqlite_utils
 
 BUSY_TIMEOUT_MS = 5000
+# A commit waits this long at most for changes already on their way (``Store.writing``),
+# so they share its fsync; an fsync itself takes a few milliseconds (docs/performance.md).
+GATHER_SECONDS = 0.005
 
 
 @dataclass(frozen=True)
@@ -77,15 +88,31 @@ def _now() -> str:
 class Store:
     """Append-only event log of one database file, safe to share between threads."""
 
-    def __init__(self, path: str | Path):
+    def __init__(self, path: str | Path, *, group_commit: bool = True,
+                 offload: Callable[[Callable[[], Any]], Any] | None = None):
+        """``offload(fn)`` runs a commit (its fsync) where it does not stall other clients:
+        gevent's thread pool under gevent (server/serving.py); by default, right here."""
         self.path = Path(path)
         self._lock = threading.Lock()
         self.db = sqlite_utils.Database(connect(self.path))
+        self._group_commit = group_commit
+        self._offload = offload or (lambda fn: fn())
+        self._durability = threading.Condition(threading.Lock())
+        self._written = 0  # changes written to the open transaction, counted from the start
+        self._durable = 0  # of those, how many are committed
+        self._committing = False
+        self._lost: list[tuple[int, int]] = []  # (after, through): changes of a commit that failed
+        self._in_flight = 0  # callers inside ``writing()``: about to write, worth waiting for
+        self.gather_seconds = GATHER_SECONDS
+        self.closed = False  # set by close(): late background work (a deferred console refresh) stops
         self._create_tables()
 
     def close(self) -> None:
         with self._lock:
+            if self.db.conn.in_transaction:
+                self.db.conn.execute("COMMIT")
             self.db.close()
+            self.closed = True
 
     def __enter__(self) -> Store:
         return self
@@ -130,8 +157,7 @@ class Store:
         self, record: SessionRecord, seat_keys: list[SeatKey], body: dict[str, Any]
     ) -> Event:
         """Store a new session, its seat keys and its ``session_created`` event at once."""
-        with self._lock, self.db.conn:
-            self.db.conn.execute("BEGIN IMMEDIATE")
+        with self.atomic(record.session_id):
             # Plain statements: sqlite-utils' insert commits on its own, which would split this transaction.
             self.db.conn.execute(
                 "INSERT INTO sessions (session_id, study_text, seed, pin_hash, secret_key, created_at)"
@@ -164,14 +190,93 @@ class Store:
         A decision and the round it resolves are stored at once, so a crash
         never leaves a half-told round in the log.
         """
+        with self.pending(session_id) as writer:
+            yield writer
+        self.make_durable(writer.ticket)
+
+    @contextmanager
+    def pending(self, session_id: str) -> Iterator[Writer]:
+        """Like ``atomic``, but not yet durable: call ``make_durable(writer.ticket)`` before acknowledging.
+
+        The change is all or nothing (a savepoint inside the open transaction); it is
+        visible to this store's readers at once, and on disk once ``make_durable`` returns.
+        """
         with self._lock:
-            self.db.conn.execute("BEGIN IMMEDIATE")
+            conn = self.db.conn
+            if not conn.in_transaction:
+                conn.execute("BEGIN IMMEDIATE")
+            conn.execute("SAVEPOINT change")
+            writer = Writer(self, session_id)
             try:
-                yield Writer(self, session_id)
+                yield writer
             except BaseException:
-                self.db.conn.execute("ROLLBACK")
+                conn.execute("ROLLBACK TO change")
+                conn.execute("RELEASE change")
                 raise
-            self.db.conn.execute("COMMIT")
+            conn.execute("RELEASE change")
+            self._written += 1
+            writer.ticket = self._written
+            if not self._group_commit:  # one fsync per change, for comparison (bench/live_load.py)
+                conn.execute("COMMIT")
+                self._durable = self._written
+
+    @contextmanager
+    def writing(self) -> Iterator[None]:
+        """Wrap the work that leads to a ``pending`` write (checks, waiting for a lock):
+        a commit starting meanwhile waits for it (up to ``gather_seconds``) and takes it along."""
+        with self._durability:
+            self._in_flight += 1
+        try:
+            yield
+        finally:
+            with self._durability:
+                self._in_flight -= 1
+                self._durability.notify_all()
+
+    def make_durable(self, ticket: int | None = None) -> None:
+        """Return once change ``ticket`` (default: every change written so far) is committed.
+
+        Raises ``sqlite3.Error`` if the commit that carried it failed (then nothing of
+        that commit is stored, and the caller must not acknowledge).
+        """
+        with self._durability:
+            if ticket is None:
+                ticket = self._written
+            while True:
+                self._raise_if_lost(ticket)
+                if self._durable >= ticket:
+                    return
+                if not self._committing:
+                    self._committing = True
+                    break
+                self._durability.wait()
+            deadline = time.monotonic() + self.gather_seconds
+            while self._in_flight and (left := deadline - time.monotonic()) > 0:
+                self._durability.wait(left)
+        after = self._durable
+        failed = None
+        with self._lock:
+            through = self._written
+            try:
+                if self.db.conn.in_transaction:
+                    self._offload(lambda: self.db.conn.execute("COMMIT"))
+            except BaseException as exc:
+                failed = exc
+                if self.db.conn.in_transaction:
+                    self.db.conn.execute("ROLLBACK")
+        with self._durability:
+            self._committing = False
+            if failed is None:
+                self._durable = through
+            else:
+                self._lost.append((after, through))
+            self._durability.notify_all()
+            self._raise_if_lost(ticket)
+
+    def _raise_if_lost(self, ticket: int) -> None:
+        for after, through in self._lost:
+            if after < ticket <= through:
+                raise sqlite3.OperationalError(f"change {ticket} was not stored: its commit failed")
 
     def _insert_event(
         self, session_id: str, kind: str, body: dict[str, Any], decision_id: str | None
@@ -232,6 +337,8 @@ class Store:
     def first_times(self, session_id: str) -> dict[str, str]:
         """When each kind of event first happened in a session (the console's clock of the day)."""
         with self._lock:
+            if self.closed:
+                return {}  # shutting down: the console's clock has nobody to show it to
             rows = self.db.query(
                 "SELECT kind, MIN(created_at) AS first FROM events WHERE session_id = ? GROUP BY kind",
                 (session_id,),
@@ -241,6 +348,8 @@ class Store:
     def last_events(self, session_id: str, limit: int) -> list[Event]:
         """The latest ``limit`` events of a session, oldest first."""
         with self._lock:
+            if self.closed:
+                return []
             rows = list(self.db.query(
                 "SELECT * FROM events WHERE session_id = ? ORDER BY id DESC LIMIT ?", (session_id, limit)
             ))
@@ -253,6 +362,7 @@ class Writer:
     def __init__(self, store: Store, session_id: str):
         self._store = store
         self._session_id = session_id
+        self.ticket = 0  # set when the change is written; see Store.make_durable
 
     def append(
         self, kind: str, body: dict[str, Any], decision_id: str | None = None

@@ -2,15 +2,16 @@
 
 from __future__ import annotations
 
-from flask import Blueprint, current_app, redirect, render_template, url_for
+from flask import Blueprint, current_app, redirect, render_template, request, url_for
 from flask_babel import get_locale
 from flask_babel import gettext as _
 
 from ebbtide.exports.tables import group_code
+from ebbtide.game_logic.early_debrief import safe_to_show, thresholds_still_to_play
 from ebbtide.game_logic.errors import Refused
 from ebbtide.game_logic.treatments import participant_view
 
-from ..phone.view import gauge_labels, language_choices, phone_more_strings
+from ..phone.view import gauge_labels, language_choices, participant_title, phone_more_strings
 from ..pictures.gauge import stock_gauge_svg
 from ..web import console_required, live_session
 from .revealed import debrief_blocks
@@ -29,25 +30,62 @@ def phone_page_extras() -> dict:
     }
 
 
-def _groups(live) -> list[dict]:
-    return [
-        {"group": g + 1, "group_id": group_code(g), "blocks": debrief_blocks(live, g, f"g{g + 1}")}
-        for g in range(live.study.groups.count)
-    ]
+def _early_wanted() -> bool:
+    """The facilitator confirmed an early debrief (the warning's button adds ``early=1``)."""
+    return request.args.get("early") == "1"
+
+
+def _sorted_blocks(live, group: int, id_prefix: str) -> tuple[list[dict], list[dict]]:
+    """The group's finished blocks split into (may be shown now, held back).
+
+    After the end every finished block may be shown; before it, only blocks whose danger
+    level no group plays again (``game_logic.early_debrief``).
+    """
+    blocks = debrief_blocks(live, group, id_prefix)
+    if live.state.status == "ended":
+        return blocks, []
+    still = thresholds_still_to_play(live.study, live.state.seed, [p.state for p in live.state.groups])
+    shown = [b for b in blocks if safe_to_show(b["threshold"], still)]
+    return shown, [b for b in blocks if b not in shown]
+
+
+def _named(group_id: str, block: dict) -> str:
+    return f"{group_id} {_('Part %(n)s: %(name)s', n=block['part'], name=block['name'])}"
+
+
+def _groups(live, early: bool) -> list[dict]:
+    """Each group's blocks for the debrief page: all after the end, safe ones when early, else none."""
+    showing = early or live.state.status == "ended"
+    out = []
+    for g in range(live.study.groups.count):
+        safe, held = _sorted_blocks(live, g, f"g{g + 1}")
+        out.append({"group": g + 1, "group_id": group_code(g), "safe_now": safe,
+                    "blocks": safe if showing else [], "held": held if showing else []})
+    return out
 
 
 def _render_debrief(problem: str | None = None, status: int = 200):
     live = live_session()
+    ended = live.state.status == "ended"
+    early = _early_wanted() and not ended
+    groups = _groups(live, early)
+    gives_away = [_named(g["group_id"], b) for g in groups for b in g["safe_now"]]
     return render_template(
-        "debrief.html", title=live.study.session.title, groups=_groups(live), study=live.study,
+        "debrief.html", title=participant_title(live.study), groups=groups, study=live.study,
         revealed=live.state.debrief_revealed, session_status=live.state.status, problem=problem,
+        ended=ended, early=early, gives_away=gives_away,
     ), status
 
 
 @bp.get("/console/debrief")
 @console_required
 def debrief():
-    """Projector view after a block or the session: each group's threshold, path and what-if."""
+    """Projector view after the session: each group's threshold, path and what-if.
+
+    Before the end it shows nothing until the facilitator confirms an early debrief (a
+    warning names what it gives away), and then only blocks no group plays again under
+    the same danger level.
+    """
     return _render_debrief()
 
 
@@ -76,9 +114,15 @@ def handout(group: int):
         return render_template("teach_refused.html", title=live.study.session.title,
                                message=_("There is no group %(g)s; groups run from 1 to %(n)s.",
                                          g=group, n=count)), 404
-    blocks = debrief_blocks(live, group - 1, "handout")
-    return render_template("handout.html", title=live.study.session.title, group_id=group_code(group - 1),
-                           blocks=blocks, study=live.study)
+    safe, held = _sorted_blocks(live, group - 1, "handout")
+    ended = live.state.status == "ended"
+    early = _early_wanted() and not ended
+    showing = ended or early
+    return render_template(
+        "handout.html", title=participant_title(live.study), group_id=group_code(group - 1), study=live.study,
+        blocks=safe if showing else [], held=held if showing else [], ended=ended, early=early,
+        gives_away=[_named(group_code(group - 1), b) for b in safe],
+    )
 
 
 def _teaching_refused():
@@ -107,7 +151,7 @@ def teaching_view():
     live = live_session()
     if not live.study.session.teaching_view:
         return _teaching_refused()
-    return render_template("teach.html", title=live.study.session.title, groups=teaching_gauges(live))
+    return render_template("teach.html", title=participant_title(live.study), groups=teaching_gauges(live))
 
 
 @bp.get("/teach/gauges.json")

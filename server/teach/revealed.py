@@ -1,27 +1,30 @@
 """The debrief of a live session: each group's finished blocks, revealed and replayed.
 
-Built from the replayed state with ``game_logic.debrief.debrief_group``. The console's
-debrief pages may use it at any time; phones get their own group's part only after
-the facilitator's ``debrief_revealed`` event (allowed once the session has ended).
+Built from the replayed state with ``game_logic.debrief.debrief_group`` for the console's
+debrief pages and the handout (any time). Phones get their own group's part only after
+the facilitator's ``debrief_revealed`` event, built in the core
+(``debrief.participant_debrief``, inside ``phone_snapshot``); this module lends them only
+its words (``plain_sentence``, ``chart_labels``).
 """
 
 from __future__ import annotations
 
 from typing import Any
 
+from flask_babel import get_locale
 from flask_babel import gettext as _
 
 from ebbtide.game_logic.debrief import GroupDebrief, debrief_group
+from ebbtide.game_logic.debrief import finished_outcomes as finished_in
 from ebbtide.game_logic.rounds import Regime, RoundOutcome
 
-from ..pictures.chart import PHONE, WIDE, stock_path_svg
+from ..pictures.chart import WIDE, stock_path_svg
 
 
 def finished_outcomes(live, group: int) -> list[RoundOutcome]:
     """The group's rounds in blocks it has finished (a block in play is not debriefed)."""
     progress = live.state.groups[group]
-    current = progress.state
-    return [o for o in progress.outcomes if o.block < current.block or current.block_over]
+    return finished_in(progress.outcomes, progress.state)
 
 
 def group_debrief(live, group: int) -> GroupDebrief | None:
@@ -73,8 +76,9 @@ def plain_sentence(block: dict[str, Any], unit: str) -> str:
         return _("This part had no danger level; the group took %(total)s %(unit)s in all.",
                  total=block["total_taken"], unit=unit)
     level = _level(block["threshold"])
-    saving = next((w for w in block["what_ifs"] if not w["crossed"]), None)
-    if not block["crossed"]:
+    # Read from a console debrief block or a phone's DebriefFacts alike: "crossed" is a crossing round.
+    saving = next((w for w in block["what_ifs"] if w.get("crossed_round") is None), None)
+    if block.get("crossed_round") is None:
         return _("The stock stayed above the danger level of %(level)s in every round; "
                  "the group took %(total)s %(unit)s in all.",
                  level=level, total=block["total_taken"], unit=unit)
@@ -96,39 +100,27 @@ def plain_sentence(block: dict[str, Any], unit: str) -> str:
              k=deepest["less_by"], later=deepest["crossed_round"])
 
 
-def debrief_blocks(live, group: int, id_prefix: str, phone: bool = False) -> list[dict[str, Any]]:
-    """Every finished block of the group, ready for a page: numbers, sentence and picture."""
+def debrief_blocks(live, group: int, id_prefix: str) -> list[dict[str, Any]]:
+    """Every finished block of the group, ready for a page: numbers, sentence and picture.
+
+    The projector and the handout are read by participants too: each block carries its
+    participant-facing ``label`` in the page's language (None: the page says "Part n"),
+    never the researcher's block name.
+    """
     debrief = group_debrief(live, group)
     if debrief is None:
         return []
     labels = chart_labels()
+    language = str(get_locale() or live.study.session.language)
     blocks = []
     for raw in debrief.to_dict()["blocks"]:
         raw["part"] = raw["block"] + 1
+        raw["label"] = live.study.block_label(raw["block"], language)
         raw["told"] = treatment_words(raw["treatment"])
         raw["sentence"] = plain_sentence(raw, live.study.resource.unit)
-        # A phone is narrow: its picture leaves the what-if lines to the sentence.
-        drawn = {**raw, "what_ifs": []} if phone else raw
         raw["svg"] = stock_path_svg(
-            drawn, live.study.resource.capacity, degraded_rounds(live, group, raw["block"]),
-            labels=labels, id_prefix=f"{id_prefix}-b{raw['part']}", layout=PHONE if phone else WIDE,
+            raw, live.study.resource.capacity, degraded_rounds(live, group, raw["block"]),
+            labels=labels, id_prefix=f"{id_prefix}-b{raw['part']}", layout=WIDE,
         )
         blocks.append(raw)
     return blocks
-
-
-def phone_debrief(live, group: int) -> dict[str, Any] | None:
-    """What a phone of the group may show once revealed: its own group only; else None."""
-    if not live.state.debrief_revealed:
-        return None
-    blocks = debrief_blocks(live, group, id_prefix="mine", phone=True)
-    keep = ("part", "name", "threshold", "recovery_level", "crossed_round", "total_regrowth_lost",
-            "sentence", "svg")
-    for b in blocks:  # the same one-decimal numbers the console shows
-        for key in ("threshold", "recovery_level"):
-            b[key] = None if b[key] is None else round(b[key], 1)
-    return {
-        "blocks": [{k: b[k] for k in keep} for b in blocks],
-        "caution": _("This game is a teaching device: its stock and danger level are invented and "
-                     "are not a forecast for any real fishery, forest or pasture."),
-    }

@@ -1,0 +1,32 @@
+"""The gauge's words are looked up once per language, and each language keeps its own words.
+
+Expected words are read from the message catalogues themselves with Babel's own .po reader
+(``babel.messages.pofile.read_po``), not from the code under test.
+"""
+
+from __future__ import annotations
+
+from babel.messages.pofile import read_po
+from flask_babel import force_locale
+
+from ebbtide.server import create_app
+from ebbtide.server.phone.view import gauge_labels
+from ebbtide.server.resources import data_folder
+
+
+def catalogue_word(language: str, msgid: str) -> str:
+    path = data_folder("translations") / language / "LC_MESSAGES" / "messages.po"
+    with path.open("rb") as handle:
+        return read_po(handle, locale=language)[msgid].string
+
+
+def test_gauge_labels_cached_per_language_never_mixed(tmp_path):
+    app = create_app({"EBBTIDE_DB": str(tmp_path / "labels.db")})
+    seen = []
+    with app.test_request_context():
+        for language in ("en", "es", "fr", "en", "es"):  # cached after the first of each
+            with force_locale(language):
+                seen.append((language, gauge_labels()["stock"]))
+    es, fr = catalogue_word("es", "Stock"), catalogue_word("fr", "Stock")
+    assert seen == [("en", "Stock"), ("es", es), ("fr", fr), ("en", "Stock"), ("es", es)]
+    assert catalogue_word("es", "Stock") != "Stock"  # the check above could tell the languages apart
