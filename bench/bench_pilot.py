@@ -1,19 +1,24 @@
-"""Time the offline pilot: groups per second through the demo design.
+"""Time the offline pilot's simulation alone (``pilot.play``, nothing kept) over many groups.
 
-Run:  python bench/bench_pilot.py [--groups 1000] [--repeat 5]
-Prints the best and median wall time of each strategy, plus peak memory.
+Run from the repository root:
+    python -m bench.bench_pilot [--groups 100000] [--repeat 5] [--study examples/within-subject.toml]
+Prints, per behaviour model, the median and spread of wall time over the repeats and the
+load average before each run (the machine may be shared). Target: 100,000 groups x 20
+rounds under 1 s. The export written with it: bench/bench_pilot_export.py. Figures:
+docs/performance.md.
 """
 
 from __future__ import annotations
 
 import argparse
+import os
 import statistics
 import time
-import tracemalloc
 from pathlib import Path
 
-from ebbtide.exports.build import tables_from_outcomes
-from ebbtide.game_logic.pilot import run_pilot
+import numpy as np
+
+from ebbtide.game_logic.pilot import play
 from ebbtide.game_logic.study import load_study
 
 ROOT = Path(__file__).resolve().parent.parent
@@ -21,26 +26,23 @@ ROOT = Path(__file__).resolve().parent.parent
 
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("--groups", type=int, default=1000)
+    parser.add_argument("--groups", type=int, default=100_000)
     parser.add_argument("--repeat", type=int, default=5)
-    parser.add_argument("--study", default=str(ROOT / "examples" / "brackwater-demo.toml"))
+    parser.add_argument("--study", default=str(ROOT / "examples" / "within-subject.toml"))
     args = parser.parse_args()
     study = load_study(args.study)
-    for strategy in ("max", "sustainable", "conditional"):
-        times = []
+    groups = np.arange(args.groups)
+    for strategy in ("max", "conditional", "threshold-averse"):
+        play(study, strategy, 1, groups[:100], lambda step: None)  # warm-up: imports, caches
+        times, loads = [], []
         for _ in range(args.repeat):
+            loads.append(os.getloadavg()[0])
             start = time.perf_counter()
-            run = run_pilot(study, args.groups, seed=1, strategy=strategy)
-            tables_from_outcomes(study, "bench", run.outcomes, lambda o: ["pilot"] * len(o.asked),
-                                 groups=args.groups)
+            play(study, strategy, 1, groups, lambda step: None)
             times.append(time.perf_counter() - start)
-        tracemalloc.start()
-        run_pilot(study, args.groups, seed=1, strategy=strategy)
-        peak = tracemalloc.get_traced_memory()[1]
-        tracemalloc.stop()
-        print(f"{strategy:12s} groups={args.groups} best={min(times):.3f}s "
-              f"median={statistics.median(times):.3f}s rounds={len(run.outcomes)} "
-              f"peak_mem={peak / 2**20:.1f} MiB")
+        print(f"{strategy:16s} groups={args.groups} median={statistics.median(times):.3f}s "
+              f"min={min(times):.3f}s max={max(times):.3f}s runs={args.repeat} "
+              f"load1={min(loads):.2f}..{max(loads):.2f}")
 
 
 if __name__ == "__main__":

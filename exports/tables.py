@@ -98,12 +98,17 @@ def seat_rows(
     ``groups`` defaults to the study's group count; the pilot plays more.
     """
     count = study.groups.count if groups is None else groups
-    units: dict[tuple[int, int], int] = {(g, s): 0 for g in range(count) for s in range(study.seats)}
+    units = {(g, s): 0 for g in range(count) for s in range(study.seats)}
     by_code = {seat_code(g, s): (g, s) for g, s in units}
     for row in decisions:
         if row["practice"] or row["source"] == "absent":
             continue  # practice pays nothing; an absent seat took nothing
         units[by_code[row["seat_id"]]] += row["harvest_taken"]
+    return seat_rows_from_units(study, session_id, units)
+
+
+def seat_rows_from_units(study: Study, session_id: str, units: dict[tuple[int, int], int]) -> list[dict]:
+    """Seat rows from whole units taken per (group, seat), both 0-based, in the mapping's order."""
     rows = []
     for (g, s), taken in units.items():
         paid = earnings(taken, study.payment)

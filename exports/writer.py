@@ -5,6 +5,7 @@ from __future__ import annotations
 import csv
 import hashlib
 import json
+from collections.abc import Iterable
 from decimal import Decimal
 from pathlib import Path
 
@@ -60,14 +61,33 @@ def _cell(value):
     return value
 
 
-def write_table(path: Path, columns: tuple[Column, ...], rows: list[dict]) -> None:
+def write_table(path: Path, columns: tuple[Column, ...], rows: Iterable[dict]) -> None:
     """Write one CSV table (UTF-8, one header row, booleans as 0/1)."""
-    names = [c.name for c in columns]
-    with path.open("w", encoding="utf-8", newline="") as handle:
-        writer = csv.writer(handle, lineterminator="\n")
-        writer.writerow(names)
-        for row in rows:
-            writer.writerow([_cell(row[name]) for name in names])
+    with TableFile(path, columns) as table:
+        table.write_rows(rows)
+
+
+class TableFile:
+    """One CSV table open for writing, rows added as they come (the streamed export)."""
+
+    def __init__(self, path: Path, columns: tuple[Column, ...]) -> None:
+        self.names = [c.name for c in columns]
+        self._handle = path.open("w", encoding="utf-8", newline="")
+        self._writer = csv.writer(self._handle, lineterminator="\n")
+        self._writer.writerow(self.names)
+
+    def write_rows(self, rows: Iterable[dict]) -> None:
+        names = self.names
+        self._writer.writerows([_cell(row[name]) for name in names] for row in rows)
+
+    def close(self) -> None:
+        self._handle.close()
+
+    def __enter__(self) -> TableFile:
+        return self
+
+    def __exit__(self, *exc) -> None:
+        self.close()
 
 
 def _tables(names) -> dict[str, tuple[Column, ...]]:
@@ -124,7 +144,12 @@ def write_export(
     out.mkdir(parents=True, exist_ok=True)
     for name, columns in _tables(tables).items():
         write_table(out / f"{name}.csv", columns, tables[name])
-    package = descriptor(study, session_id, seed, source, tuple(tables))
+    return write_descriptor(out, study, session_id, seed, source, tuple(tables))
+
+
+def write_descriptor(out: Path, study: Study, session_id: str, seed: int, source: str, written=()) -> Path:
+    """Write datapackage.json into the export folder ``out``; return the folder."""
+    package = descriptor(study, session_id, seed, source, written)
     (out / "datapackage.json").write_text(
         json.dumps(package, indent=2, ensure_ascii=False) + "\n", encoding="utf-8"
     )

@@ -23,10 +23,10 @@ import numpy as np
 from numpy.typing import NDArray
 
 from .behaviour import Danger, Model, Observation, make_model
-from .rounds import Advance, GroupState, Regime, RoundOutcome, advance, next_block, round_draws, start_block
-from .seeding import behaviour_rng, round_rng
+from .rounds import Advance, GroupState, Regime, RoundOutcome, advance, group_thresholds
+from .seeding import BEHAVIOUR_STREAM, bulk_round_draws, bulk_uniforms
 from .study import Study
-from .treatments import danger_info
+from .treatments import GROUP_INDEPENDENT, danger_info
 
 
 @dataclass(frozen=True)
@@ -64,27 +64,28 @@ def play(
     if ids.ndim != 1 or ids.size == 0:
         raise ValueError("groups must list at least one group number")
     seats = study.seats
-    states: list[GroupState] = [start_block(study, seed, int(g), 0) for g in ids]
+    stock = np.full(ids.size, study.resource.initial_stock, dtype=np.int64)
+    degraded = np.zeros(ids.size, dtype=bool)
     for b, block in enumerate(study.blocks):
-        if b > 0:
-            states = [next_block(study, seed, s) for s in states]
-        stock = np.array([s.stock for s in states], dtype=np.int64)
-        degraded = np.array([s.regime is Regime.DEGRADED for s in states])
-        threshold = np.array([np.nan if s.threshold is None else s.threshold for s in states])
-        infos = [danger_info(study, s) for s in states]
+        if b > 0 and block.reset_stock:  # the same carry rule as ``rounds.start_block``
+            stock[:] = study.resource.initial_stock
+            degraded[:] = False
+        threshold = group_thresholds(study, seed, ids, b)
+        states = _block_states(study, ids, b, stock, degraded, threshold)
+        infos = _danger_infos(study, states)
         # The band is recomputed each round only for models that read it (it is costly).
         signal_rows = [i for i, info in enumerate(infos) if info["kind"] == "signal" and model.reads_signal]
         paths = {i: list(states[i].stock_path) for i in signal_rows}
         # Other treatments say the same thing all block long: their arrays are built once.
         static = None if signal_rows else Danger.from_infos(infos)
-        generators = [behaviour_rng(seed, int(g), b) for g in ids]
-        uniforms = np.stack([gen.random((block.rounds, seats)) for gen in generators])
-        if not live_draws:
-            own_draws = np.stack([gen.random((block.rounds, 2)) for gen in generators])
+        draws_per_group = block.rounds * seats + (0 if live_draws else 2 * block.rounds)
+        behaviour_draws = bulk_uniforms([seed, BEHAVIOUR_STREAM, ids, b], ids.size, draws_per_group)
+        uniforms = behaviour_draws[:, :block.rounds * seats].reshape(ids.size, block.rounds, seats)
+        if not live_draws:  # the group's own generator after its seats' uniforms
+            own_draws = behaviour_draws[:, block.rounds * seats:].reshape(ids.size, block.rounds, 2)
         own_last = np.full((ids.size, seats), np.nan)
         group_last = np.full((ids.size, 1), np.nan)
         played = np.zeros(ids.size, dtype=np.int64)
-        reasons = np.full(ids.size, None, dtype=object)
         active = np.arange(ids.size)
         for k in range(1, block.rounds + 1):
             for i in signal_rows:
@@ -94,8 +95,8 @@ def play(
             obs = Observation(round=np.full(active.size, k), stock=stock[active],
                               own_last=own_last[active], group_last=group_last[active], danger=danger)
             asked = model.ask(obs, uniforms[active, k - 1])
-            if live_draws:
-                draws = np.array([round_draws(round_rng(seed, int(ids[i]), b, k)) for i in active])
+            if live_draws:  # exactly ``round_draws(round_rng(seed, g, b, k))`` of every group
+                draws = bulk_round_draws(seed, ids[active], b, k)
             else:
                 draws = own_draws[active, k - 1]
             result = advance(study, b, np.full(active.size, k), stock[active], degraded[active],
@@ -107,20 +108,47 @@ def play(
             own_last[active] = result.taken
             group_last[active, 0] = result.taken.sum(axis=1)
             played[active] = k
-            reasons[active] = result.end_reason
             for i, after in zip(active, result.stock_after, strict=True):
                 if i in paths:
                     paths[i].append(int(after))
             active = active[~result.block_over]
             if active.size == 0:
                 break
-        last_block = b == len(study.blocks) - 1
-        states = [
-            replace(s, round=int(played[i]), stock=int(stock[i]),
-                    regime=Regime.DEGRADED if degraded[i] else Regime.GOOD,
-                    block_over=True, session_over=last_block, end_reason=reasons[i])
-            for i, s in enumerate(states)
-        ]
+
+
+def _block_states(study: Study, ids, block: int, stock, degraded, threshold) -> list[GroupState | None]:
+    """Each group's state at the start of ``block``, built only where the treatment reads it.
+
+    Treatments whose message is the same for every group (``treatments.GROUP_INDEPENDENT``)
+    get one state per block for the first such group; the others (exact, risk, signal) one per group.
+    """
+    spec = study.blocks[block]
+    states: list[GroupState | None] = [None] * ids.size
+    shared: dict[str, GroupState] = {}
+    for i, g in enumerate(ids.tolist()):
+        treatment = spec.treatment_for(g)
+        if treatment in GROUP_INDEPENDENT and treatment in shared:
+            states[i] = shared[treatment]
+            continue
+        t = threshold[i]
+        states[i] = GroupState(group=g, block=block, round=0, stock=int(stock[i]),
+                               regime=Regime.DEGRADED if degraded[i] else Regime.GOOD,
+                               threshold=None if np.isnan(t) else float(t), stock_path=(int(stock[i]),))
+        if treatment in GROUP_INDEPENDENT:
+            shared[treatment] = states[i]
+    return states
+
+
+def _danger_infos(study: Study, states: list[GroupState]) -> list[dict]:
+    """``danger_info`` of every state, computed once per distinct state object."""
+    seen: dict[int, dict] = {}
+    out = []
+    for state in states:
+        key = id(state)
+        if key not in seen:
+            seen[key] = danger_info(study, state)
+        out.append(seen[key])
+    return out
 
 
 @dataclass(frozen=True)
@@ -134,29 +162,46 @@ class PilotRun:
     outcomes: tuple[RoundOutcome, ...]
 
 
-def run_pilot(study: Study, groups: int, seed: int, strategy: Model | str) -> PilotRun:
-    """Play groups 0..``groups``-1 through every block of ``study`` with a behaviour model."""
+def round_outcomes(step: RoundStep) -> list[RoundOutcome]:
+    """The ``RoundOutcome`` of every group in one round step, in the step's group order."""
+    r = step.result
+    return [
+        RoundOutcome(
+            group=int(g), block=step.block, round=step.round,
+            stock_before=int(step.stock_before[j]),
+            asked=tuple(int(a) for a in step.asked[j]),
+            taken=tuple(int(t) for t in r.taken[j]),
+            remaining=int(r.remaining[j]), stock_after=int(r.stock_after[j]),
+            regime_before=Regime.DEGRADED if step.degraded_before[j] else Regime.GOOD,
+            regime_after=Regime.DEGRADED if r.degraded_after[j] else Regime.GOOD,
+            threshold=None if np.isnan(step.threshold[j]) else float(step.threshold[j]),
+            crossed=bool(r.crossed[j]), recovered=bool(r.recovered[j]),
+            flip_draw=float(step.flip_draw[j]), continue_draw=float(step.continue_draw[j]),
+            block_over=bool(r.block_over[j]), end_reason=r.end_reason[j],
+        )
+        for j, g in enumerate(step.groups)
+    ]
+
+
+def stream_pilot(
+    study: Study, groups: int, seed: int, strategy: Model | str, on_outcome: Callable[[RoundOutcome], None]
+) -> str:
+    """Play groups 0..``groups``-1 as ``run_pilot`` does, handing each outcome to ``on_outcome``
+    in the same order instead of keeping them all; return the model's name."""
     if groups < 1:
         raise ValueError(f"groups must be at least 1, got {groups}")
     model = _as_model(study, strategy)
-    outcomes: list[RoundOutcome] = []
 
     def record(step: RoundStep) -> None:
-        r = step.result
-        for j, g in enumerate(step.groups):
-            outcomes.append(RoundOutcome(
-                group=int(g), block=step.block, round=step.round,
-                stock_before=int(step.stock_before[j]),
-                asked=tuple(int(a) for a in step.asked[j]),
-                taken=tuple(int(t) for t in r.taken[j]),
-                remaining=int(r.remaining[j]), stock_after=int(r.stock_after[j]),
-                regime_before=Regime.DEGRADED if step.degraded_before[j] else Regime.GOOD,
-                regime_after=Regime.DEGRADED if r.degraded_after[j] else Regime.GOOD,
-                threshold=None if np.isnan(step.threshold[j]) else float(step.threshold[j]),
-                crossed=bool(r.crossed[j]), recovered=bool(r.recovered[j]),
-                flip_draw=float(step.flip_draw[j]), continue_draw=float(step.continue_draw[j]),
-                block_over=bool(r.block_over[j]), end_reason=r.end_reason[j],
-            ))
+        for outcome in round_outcomes(step):
+            on_outcome(outcome)
 
     play(study, model, seed, np.arange(groups), record, live_draws=True)
-    return PilotRun(study, seed, groups, model.name, tuple(outcomes))
+    return model.name
+
+
+def run_pilot(study: Study, groups: int, seed: int, strategy: Model | str) -> PilotRun:
+    """Play groups 0..``groups``-1 through every block of ``study`` with a behaviour model."""
+    outcomes: list[RoundOutcome] = []
+    name = stream_pilot(study, groups, seed, strategy, outcomes.append)
+    return PilotRun(study, seed, groups, name, tuple(outcomes))

@@ -135,6 +135,19 @@ def draw_threshold(spec: ThresholdSpec, rng: np.random.Generator) -> float | Non
     return float(rng.uniform(spec.low, spec.high))
 
 
+def draw_thresholds(spec: ThresholdSpec, uniforms: NDArray[np.float64]) -> NDArray[np.float64]:
+    """``draw_threshold`` for many groups from each one's first uniform draw; NaN: no threshold.
+
+    numpy's ``Generator.uniform(low, high)`` is ``low + (high - low) * random()``
+    (numpy/random/src/distributions: random_uniform); tests/test_seeding.py checks the match.
+    """
+    if spec.rule == "none":
+        return np.full(uniforms.shape, np.nan)
+    if spec.rule == "fixed":
+        return np.full(uniforms.shape, float(spec.value))
+    return spec.low + (spec.high - spec.low) * uniforms
+
+
 def below_threshold(remaining: ArrayLike, threshold: ArrayLike) -> NDArray[np.bool_]:
     """True where what remains after the harvest lies below the threshold (NaN: no threshold).
 

@@ -20,8 +20,8 @@ import numpy as np
 from numpy.typing import NDArray
 
 from .errors import InvalidHarvest, RoundClosed
-from .resource import draw_threshold, next_regime, ration, regrow
-from .seeding import threshold_rng
+from .resource import draw_threshold, draw_thresholds, next_regime, ration, regrow
+from .seeding import bulk_threshold_uniforms, threshold_rng
 from .study import Study
 
 
@@ -246,6 +246,12 @@ def group_threshold(study: Study, seed: int, group: int, block: int) -> float | 
     """The hidden threshold of a group in a block, drawn from the session seed."""
     key_block = block if study.threshold.redraw_each_block else 0
     return draw_threshold(study.threshold, threshold_rng(seed, group, key_block))
+
+
+def group_thresholds(study: Study, seed: int, groups: NDArray[np.int64], block: int) -> NDArray[np.float64]:
+    """``group_threshold`` of many groups at once (NaN where there is none), the same numbers."""
+    key_block = block if study.threshold.redraw_each_block else 0
+    return draw_thresholds(study.threshold, bulk_threshold_uniforms(seed, groups, key_block))
 
 
 def start_block(

@@ -19,6 +19,9 @@ from .money import decimal_text, earnings
 from .rounds import GroupState, RoundOutcome
 from .study import Study
 
+# Treatments whose ``danger_info`` is the same for every group of a block (no threshold, no path).
+GROUP_INDEPENDENT = frozenset({"none", "vague", "range"})
+
 
 def danger_info(study: Study, state: GroupState) -> dict[str, Any]:
     """What the block's treatment says about the danger level."""

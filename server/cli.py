@@ -114,23 +114,30 @@ def check(study_file: str) -> None:
 def pilot(study_file: str, groups: int, seed: int, strategy: str, model_spec: str | None,
           out_dir: str) -> None:
     """Simulate groups offline through STUDY_FILE and write the export tables."""
-    from ebbtide.exports.build import tables_from_outcomes
-    from ebbtide.exports.writer import write_export
-    from ebbtide.game_logic.pilot import run_pilot
+    from ebbtide.exports.build import StreamedExport
+    from ebbtide.game_logic.pilot import stream_pilot
 
     study = _load(study_file)
     model = _model(model_spec or strategy, study)
     strategy = model.name
-    run = run_pilot(study, groups=groups, seed=seed, strategy=model)
     session_id = f"pilot-{study.session.id}-{strategy}-s{seed}"
-    tables = tables_from_outcomes(
-        study, session_id, run.outcomes, lambda o: ["pilot"] * len(o.asked), groups=groups
-    )
-    write_export(out_dir, study, session_id, seed, "pilot", tables)
-    rounds = tables["rounds"]
-    ever_crossed = {r["group_id"] for r in rounds if r["crossed"]}
+    # Rows go to disk as the groups play: a large pilot never holds its decisions in memory.
+    export = StreamedExport(out_dir, study, session_id, groups=groups)
+    sources = ["pilot"] * study.seats
+    ever_crossed: set[int] = set()
+    group_rounds = 0
+
+    def write(outcome) -> None:
+        nonlocal group_rounds
+        export.add(outcome, sources)
+        group_rounds += 1
+        if outcome.crossed:
+            ever_crossed.add(outcome.group)
+
+    stream_pilot(study, groups, seed, model, write)
+    export.finish(seed, "pilot")
     click.echo(
-        f"pilot: {groups} groups, strategy {strategy}, {len(rounds)} group-rounds; "
+        f"pilot: {groups} groups, strategy {strategy}, {group_rounds} group-rounds; "
         f"{len(ever_crossed)} group(s) crossed the threshold at least once"
     )
     click.echo(f"wrote {out_dir}/decisions.csv, rounds.csv, seats.csv, datapackage.json")

@@ -7,7 +7,7 @@ import warnings
 
 import pandas as pd
 import pytest
-from _analysis_exports import copy_export, pilot_export
+from _analysis_exports import EXAMPLES, copy_export, pilot_export
 
 from ebbtide.analysis.pool import pool_exports
 from ebbtide.exports.stata import write_stata
@@ -72,3 +72,28 @@ def test_stata_files_keep_types_when_nothing_was_played_and_label_flags(tmp_path
     assert set(labelled["talk"].astype(str)) <= {"no", "yes"}
     with pd.io.stata.StataReader(played / "rounds.dta") as reader:
         assert reader.value_labels()["crossed"] == {0: "no", 1: "yes"}
+
+
+@pytest.mark.parametrize("study, strategy", [
+    ("within-subject.toml", "conditional"),  # none then range, uniform threshold
+    ("between-groups.toml", "threshold-averse"),  # none / exact / signal, random stop
+])
+def test_streamed_pilot_export_equals_the_in_memory_export_byte_for_byte(
+    frictionless, tmp_path, study, strategy
+):
+    from click.testing import CliRunner
+
+    from ebbtide.server.cli import main
+
+    # Reference: the in-memory path (tables_from_outcomes + write_export), unchanged since release.
+    in_memory = pilot_export(study, 7, 4, strategy)
+    streamed = tmp_path / "streamed"
+    result = CliRunner().invoke(main, ["pilot", str(EXAMPLES / study), "--groups", "7", "--seed", "4",
+                                       "--strategy", strategy, "--out", str(streamed)])
+    assert result.exit_code == 0, result.output
+    names = ["datapackage.json", "decisions.csv", "rounds.csv", "seats.csv"]
+    assert sorted(p.name for p in streamed.iterdir()) == names
+    for name in names:
+        assert (streamed / name).read_bytes() == (in_memory / name).read_bytes(), name
+    report = _validate(frictionless, streamed)
+    assert report.valid, report.flatten(["rowNumber", "fieldName", "type", "note"])[:5]
