@@ -128,7 +128,8 @@ def field_day_screen(state, g: int, seat: int, language: str) -> FieldDayScreen:
     day = state.day.seats[(g, seat)]
     stage = state.seat_stage(g, seat)
     practice = state.groups[g].practice is not None
-    parts: dict = {}
+    # Every screen named, null when not shown: the phone's payload keeps only keys that were set.
+    parts: dict = dict.fromkeys(("consent", "instruction", "question", "survey", "risk", "end"))
     if stage in ("consent", "replace"):
         text = _in(study.consent.text, language, fallback)
         shown = language if language in study.consent.text else fallback
