@@ -225,10 +225,22 @@ def read_table(folder: Path, name: str, allow_empty: bool = False) -> pd.DataFra
             table[column.name] = numbers.astype("int64" if whole else float)
         elif column.type == "boolean":
             flags = values.map(_BOOLEAN)
-            if flags.isna().any():
-                index = _first_bad(flags.isna())
-                raise _problem(path, index + 1, column.name, values.iloc[index], "1 or 0")
-            table[column.name] = flags.astype(bool)
+            bad = flags.isna() & ~(blank & (not required))
+            if bad.any():
+                index = _first_bad(bad)
+                raise _problem(path, index + 1, column.name, values.iloc[index],
+                               "1 or 0" if required else "1, 0 or empty")
+            # An optional flag that is unknown somewhere (a phone's pictures mode) reads as 1.0 / 0.0 / NaN.
+            table[column.name] = flags.astype(float) if flags.isna().any() else flags.astype(bool)
+        elif column.type == "datetime":
+            # Kept as text; a time that is not ISO 8601 (with its offset) is refused.
+            stamps = pd.to_datetime(values.where(~blank), format="ISO8601", utc=True, errors="coerce")
+            bad = stamps.isna() & ~blank
+            if bad.any():
+                index = _first_bad(bad)
+                raise _problem(path, index + 1, column.name, values.iloc[index],
+                               "an ISO 8601 date and time, e.g. 2026-03-01T09:30:00.000+00:00")
+            table[column.name] = values.astype(str)
         else:
             allowed = column.constraints.get("enum")
             if allowed:
@@ -240,13 +252,16 @@ def read_table(folder: Path, name: str, allow_empty: bool = False) -> pd.DataFra
     for extra in raw.columns:
         if extra not in table.columns:
             table[extra] = raw[extra]
-    if name == "decisions" and {"harvest_asked", "source"} <= set(table.columns):
-        # No ask is recorded only where the facilitator closed the round before the seat decided.
-        unexplained = table["harvest_asked"].isna() & (table["source"] != "closed")
-        if unexplained.any():
-            index = _first_bad(unexplained)
-            raise _problem(path, index + 1, "harvest_asked", "", "a whole number >= 0 (empty only when "
-                           "source is closed)")
+    if name == "decisions":
+        # No ask is recorded only where the facilitator closed the round before the seat decided or
+        # the seat was absent (its person did not agree to take part); an absent seat took nothing.
+        for column, excuses in (("harvest_asked", ("closed", "absent")), ("harvest_taken", ("absent",)),
+                                ("points", ("absent",))):
+            unexplained = table[column].isna() & ~table["source"].isin(excuses)
+            if unexplained.any():
+                index = _first_bad(unexplained)
+                raise _problem(path, index + 1, column, "", f"a number >= 0 (empty only when source is "
+                               f"{' or '.join(excuses)})")
     key = PRIMARY_KEYS[name]
     repeated = table.duplicated(key, keep="first")
     if repeated.any():
@@ -255,6 +270,20 @@ def read_table(folder: Path, name: str, allow_empty: bool = False) -> pd.DataFra
         raise ExportFolderError(f"{path}: row {index + 1} (line {index + 2}) repeats the key {shown}; "
                                 f"each ({', '.join(key)}) may appear once")
     return table
+
+
+def paid_decisions(decisions: pd.DataFrame) -> pd.DataFrame:
+    """The decisions of the paid game: practice rounds and absent seats (no harvest) left out."""
+    keep = ~decisions["practice"].astype(bool) & (decisions["source"] != "absent")
+    paid = decisions[keep].reset_index(drop=True)
+    # Once absent seats are gone every harvest is known: whole numbers again.
+    paid["harvest_taken"] = paid["harvest_taken"].astype("int64")
+    return paid
+
+
+def paid_rounds(rounds: pd.DataFrame) -> pd.DataFrame:
+    """The rounds of the paid game (practice rounds left out)."""
+    return rounds[~rounds["practice"].astype(bool)].reset_index(drop=True)
 
 
 def _check_links(folder: Path, sessions: tuple[SessionInfo, ...], tables: dict[str, pd.DataFrame]) -> None:
@@ -287,6 +316,9 @@ def read_export(folder: str | Path) -> ExportData:
     tables = {name: read_table(folder, name) for name in TABLES}
     sessions = sessions_of(package)
     _check_links(folder, sessions, tables)
+    # Links are checked on every row; the analysis then sees the paid game only.
+    tables["decisions"] = paid_decisions(tables["decisions"])
+    tables["rounds"] = paid_rounds(tables["rounds"])
     return ExportData(
         folder=folder,
         format_version=str(package["ebbtide"]["format_version"]),

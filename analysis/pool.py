@@ -185,7 +185,8 @@ def _pooled_descriptor(reference: dict, kept: dict[str, _Folder]) -> dict:
         "profile": "tabular-data-package",
         "name": "ebbtide-pool",
         "title": f"Pooled Ebbtide sessions ({len(sessions)})",
-        "resources": reference["resources"],
+        # The contract tables only: a live session's surveys and timeline are not pooled.
+        "resources": [r for r in reference["resources"] if r["name"] in TABLES],
         "ebbtide": {
             "format_version": reference["ebbtide"]["format_version"],
             "pooled": True,

@@ -12,7 +12,9 @@ from dataclasses import dataclass, field
 
 from ebbtide.game_logic.study import TREATMENTS
 
-SOURCES = ("phone", "console", "bot", "pilot", "closed")
+# closed: the facilitator closed the round first; absent: the person did not agree to take part.
+SOURCES = ("phone", "console", "bot", "pilot", "closed", "absent")
+RISK_OUTCOMES = ("low", "high")
 REGIMES = ("good", "degraded")
 
 
@@ -52,12 +54,25 @@ DECISIONS = (
     _ROUND,
     _STOCK_BEFORE,
     Column("harvest_asked", "integer", "Harvest the seat asked for; empty when no choice reached the laptop "
-           "before the facilitator closed the round (source closed)", "units", {"minimum": 0}),
-    Column("harvest_taken", "integer", "Harvest the seat received after rationing", "units", _COUNT),
-    Column("points", "number", "Points earned in the round", "points", _COUNT),
+           "before the facilitator closed the round (source closed) or the seat was absent", "units",
+           {"minimum": 0}),
+    Column("harvest_taken", "integer", "Harvest the seat received after rationing (empty for an absent seat)",
+           "units", {"minimum": 0}),
+    Column("points", "number", "Points earned in the round (empty for an absent seat)", "points",
+           {"minimum": 0}),
     Column("source", "string", "Who entered the decision: phone, console, bot or pilot; closed when the "
-           "facilitator closed the round before the seat decided (it took 0)", "",
+           "facilitator closed the round before the seat decided (it took 0); absent for a seat whose "
+           "person did not agree to take part (no harvest)", "",
            {"required": True, "enum": list(SOURCES)}),
+    Column("stored_at", "datetime", "When the decision was stored on the laptop (UTC; empty in a pilot)"),
+    Column("seconds_from_open", "number",
+           "Seconds from the event that opened the round to the stored decision (empty in a pilot)", "s",
+           {"minimum": 0}),
+    Column("language", "string", "Language of the phone when it sent the decision (empty if not a phone)"),
+    Column("pictures", "boolean", "1 when the phone showed pictures instead of words, 0 when words "
+           "(empty if unknown)"),
+    Column("practice", "boolean", "1 for unpaid practice rounds, played on their own stock, else 0", "",
+           _REQUIRED),
 )
 
 ROUNDS = (
@@ -92,6 +107,8 @@ ROUNDS = (
         "",
         _REQUIRED,
     ),
+    Column("practice", "boolean", "1 for an unpaid practice round on the group's own practice stock "
+           "(block_name practice), else 0", "", _REQUIRED),
 )
 
 SEATS = (
@@ -107,7 +124,56 @@ SEATS = (
         _COUNT,
     ),
     Column("currency", "string", "Currency of the payment column"),
+    Column("consent", "string", "Consent of the seat's latest person: given, declined or empty (not asked)",
+           "", {"enum": ["given", "declined"]}),
+    Column("risk_gamble", "integer", "Gamble chosen in the risk task, 1-based (empty if none)", "",
+           {"minimum": 1}),
+    Column("risk_outcome", "string", "Coin of the risk task: low or high (empty if none)", "",
+           {"enum": list(RISK_OUTCOMES)}),
+    Column("risk_points", "number", "Points paid by the risk task (0 when unpaid or none)", "points", _COUNT),
+    Column("risk_payment", "number", "Cash for the risk task, its own line, rounded up", "currency", _COUNT),
+    Column("declined_payment", "number",
+           "Show-up fees of people at this seat who did not agree to take part", "currency", _COUNT),
+    Column("total_payment", "number", "Everything paid for this seat: payment + risk + declined", "currency",
+           _COUNT),
 )
+
+# The field day's own tables, written by live sessions only (exports/field_day.py fills them).
+_EVENT_ID = {"required": True, "minimum": 1}  # SQLite row ids start at 1
+SURVEYS = (
+    _SESSION,
+    _GROUP,
+    _SEAT,
+    Column("questionnaire", "string",
+           "Questionnaire id from the study; 'consent', 'comprehension' and 'risk_task' for those steps", "",
+           _REQUIRED),
+    Column("item", "string", "Item id (question id for comprehension; 'consent' and 'gamble' otherwise)", "",
+           _REQUIRED),
+    Column("answer", "string",
+           "The answer: a choice number, choice numbers joined by ';', a whole number, 1-5 on the "
+           "agree-disagree scale, free text; agree or decline for consent"),
+    Column("time", "datetime", "When the answer was stored on the laptop (UTC)"),
+    Column("event_id", "integer", "Id of the answer in the session's event log", "", _EVENT_ID),
+    Column("attempt", "integer", "Comprehension only: 1 for the first try, 2 for the second, ...", "",
+           {"minimum": 1}),
+    Column("correct", "boolean", "Comprehension only: 1 when the answer was right, else 0"),
+    Column("language", "string", "Consent only: the language of the text shown"),
+    Column("text_sha256", "string", "Consent only: SHA-256 of the consent text shown (UTF-8)", "",
+           {"pattern": "[0-9a-f]{64}"}),
+    Column("outcome", "string", "Risk task only: the coin, low or high", "", {"enum": list(RISK_OUTCOMES)}),
+)
+
+TIMELINE = (
+    _SESSION,
+    Column("event_id", "integer", "Id in the session's event log (its order)", "", _EVENT_ID),
+    Column("time", "datetime", "When the event was stored on the laptop (UTC)", "", _REQUIRED),
+    Column("kind", "string", "What happened (the event's kind in the log)", "", _REQUIRED),
+    Column("group_id", "string", "Group identifier within the session (empty for the whole session)"),
+    Column("seat_id", "string", "Seat code (anonymous; never a name; empty when no seat is concerned)"),
+    Column("detail", "string", "A short description (block, round, value, who entered it)"),
+)
+
+FIELD_DAY_TABLES: dict[str, tuple[Column, ...]] = {"surveys": SURVEYS, "timeline": TIMELINE}
 
 CONTRACT: dict[str, tuple[Column, ...]] = {
     "decisions": DECISIONS,
@@ -117,26 +183,34 @@ CONTRACT: dict[str, tuple[Column, ...]] = {
 
 # The columns every later issue relies on, in this order, at the start of each table.
 REQUIRED = {
-    "decisions": [c.name for c in DECISIONS],
+    "decisions": [c.name for c in DECISIONS[:11]],
     "rounds": [c.name for c in ROUNDS[:12]],
     "seats": [c.name for c in SEATS[:5]],
 }
 
 # Rows that identify one another across tables (Table Schema primaryKey / foreignKeys).
+_ROUND_KEY = ["session_id", "group_id", "block", "round", "practice"]
+# Practice rounds are numbered like the paid game's first block, so ``practice`` is part of the keys.
 PRIMARY_KEYS = {
-    "decisions": ["session_id", "group_id", "seat_id", "block", "round"],
-    "rounds": ["session_id", "group_id", "block", "round"],
+    "decisions": ["session_id", "group_id", "seat_id", "block", "round", "practice"],
+    "rounds": _ROUND_KEY,
     "seats": ["session_id", "group_id", "seat_id"],
+    "surveys": ["session_id", "event_id"],
+    "timeline": ["session_id", "event_id"],
 }
 FOREIGN_KEYS = {
     "decisions": [
-        {"fields": ["session_id", "group_id", "block", "round"],
-         "reference": {"resource": "rounds", "fields": ["session_id", "group_id", "block", "round"]}},
+        {"fields": _ROUND_KEY, "reference": {"resource": "rounds", "fields": _ROUND_KEY}},
         {"fields": ["session_id", "group_id", "seat_id"],
          "reference": {"resource": "seats", "fields": ["session_id", "group_id", "seat_id"]}},
     ],
     "rounds": [],
     "seats": [],
+    "surveys": [
+        {"fields": ["session_id", "group_id", "seat_id"],
+         "reference": {"resource": "seats", "fields": ["session_id", "group_id", "seat_id"]}},
+    ],
+    "timeline": [],
 }
 # How booleans are written in the CSV files (0/1 read as numbers by R, Stata and spreadsheets).
 TRUE_VALUES, FALSE_VALUES = ["1"], ["0"]

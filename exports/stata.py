@@ -14,9 +14,14 @@ def _typed(table: pd.DataFrame, name: str) -> pd.DataFrame:
     out = pd.DataFrame(index=table.index)
     for column in CONTRACT[name]:
         values = table[column.name]
-        if column.type == "integer":
+        required = column.constraints.get("required", False)
+        if column.type == "integer" and required:
             out[column.name] = values.astype("int64")
-        elif column.type == "number":
+        elif column.type in ("integer", "number"):
+            # An optional whole number (an empty ask, no risk gamble) may be Stata's missing value.
+            out[column.name] = values.astype("float64")
+        elif column.type == "boolean" and not required:
+            # An unknown flag (a phone's pictures mode) is Stata's missing value, not 1.
             out[column.name] = values.astype("float64")
         elif column.type == "boolean":
             out[column.name] = values.astype(bool).astype("int8")  # Stata has no boolean type

@@ -22,12 +22,19 @@ def seat_code(group: int, seat: int) -> str:
     return f"{group_code(group)}-{seat + 1}"
 
 
+# What a decision row holds where the pilot knows no time, phone or practice.
+NO_TIMING = {"stored_at": "", "seconds_from_open": "", "language": "", "pictures": "", "practice": False}
+
+
 def decision_rows(
     study: Study, session_id: str, outcome: RoundOutcome, sources: Iterable[str]
 ) -> list[dict]:
-    """One row per seat for a resolved round; ``sources`` gives each seat's entry channel."""
+    """One row per seat for a resolved round; ``sources`` gives each seat's entry channel.
+
+    An absent seat (source ``absent``) has empty harvests and points: it did not play.
+    """
     treatment = study.blocks[outcome.block].treatment_for(outcome.group)
-    return [
+    rows = [
         {
             "session_id": session_id,
             "group_id": group_code(outcome.group),
@@ -41,11 +48,16 @@ def decision_rows(
             "harvest_taken": taken,
             "points": earnings(taken, study.payment).points,
             "source": source,
+            **NO_TIMING,
         }
         for seat, (asked, taken, source) in enumerate(
             zip(outcome.asked, outcome.taken, sources, strict=True)
         )
     ]
+    for row in rows:
+        if row["source"] == "absent":
+            row.update(harvest_asked="", harvest_taken="", points="")
+    return rows
 
 
 def round_row(study: Study, session_id: str, outcome: RoundOutcome) -> dict:
@@ -73,6 +85,7 @@ def round_row(study: Study, session_id: str, outcome: RoundOutcome) -> dict:
         "end_reason": outcome.end_reason or "",
         "below_threshold": bool(below_threshold(
             outcome.remaining, math.nan if outcome.threshold is None else outcome.threshold)),
+        "practice": False,
     }
 
 
@@ -88,6 +101,8 @@ def seat_rows(
     units = {(g, s): 0 for g in range(count) for s in range(study.seats)}
     by_code = {seat_code(g, s): (g, s) for g, s in units}
     for row in decisions:
+        if row["practice"] or row["source"] == "absent":
+            continue  # practice pays nothing; an absent seat took nothing
         units[by_code[row["seat_id"]]] += row["harvest_taken"]
     return seat_rows_from_units(study, session_id, units)
 
@@ -104,5 +119,7 @@ def seat_rows_from_units(study: Study, session_id: str, units: dict[tuple[int, i
             "points_total": paid.points,
             "payment": paid.cash,
             "currency": study.payment.currency,
+            "consent": "", "risk_gamble": "", "risk_outcome": "", "risk_points": 0, "risk_payment": 0,
+            "declined_payment": 0, "total_payment": paid.cash,
         })
     return rows

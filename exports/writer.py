@@ -12,7 +12,16 @@ from pathlib import Path
 from ebbtide.game_logic.money import decimal_text
 from ebbtide.game_logic.study import Study
 
-from .schema import BOOLEAN_LABELS, CONTRACT, FALSE_VALUES, FOREIGN_KEYS, PRIMARY_KEYS, TRUE_VALUES, Column
+from .schema import (
+    BOOLEAN_LABELS,
+    CONTRACT,
+    FALSE_VALUES,
+    FIELD_DAY_TABLES,
+    FOREIGN_KEYS,
+    PRIMARY_KEYS,
+    TRUE_VALUES,
+    Column,
+)
 
 FORMAT_VERSION = "1"
 
@@ -21,6 +30,8 @@ def _field(column: Column) -> dict:
     field = {"name": column.name, "type": column.type, "description": column.description}
     if column.unit:
         field["unit"] = column.unit
+    if column.type == "datetime":
+        field["format"] = "any"  # ISO 8601 with milliseconds and offset, as the event log stores it
     if column.constraints:
         field["constraints"] = dict(column.constraints)
     if column.type == "boolean":
@@ -30,8 +41,9 @@ def _field(column: Column) -> dict:
 
 
 def table_schema(name: str) -> dict:
-    """Table Schema of one contract table: fields, primary key and foreign keys."""
-    schema = {"fields": [_field(c) for c in CONTRACT[name]], "primaryKey": PRIMARY_KEYS[name]}
+    """Table Schema of one table (contract or field day): fields, primary key and foreign keys."""
+    columns = CONTRACT.get(name) or FIELD_DAY_TABLES[name]
+    schema = {"fields": [_field(c) for c in columns], "primaryKey": PRIMARY_KEYS[name]}
     if FOREIGN_KEYS[name]:
         schema["foreignKeys"] = FOREIGN_KEYS[name]
     return schema
@@ -78,9 +90,16 @@ class TableFile:
         self.close()
 
 
-def descriptor(study: Study, session_id: str, seed: int, source: str) -> dict:
+def _tables(names) -> dict[str, tuple[Column, ...]]:
+    """The contract tables, then the field-day tables that were written."""
+    return {**CONTRACT, **{name: cols for name, cols in FIELD_DAY_TABLES.items() if name in names}}
+
+
+def descriptor(study: Study, session_id: str, seed: int, source: str, written=()) -> dict:
     """Frictionless Data Package descriptor: every column's type, unit and meaning."""
-    return {
+    from .field_day import survey_codebook
+
+    package = {
         "profile": "tabular-data-package",
         "name": session_id,
         "title": study.session.title,
@@ -94,7 +113,7 @@ def descriptor(study: Study, session_id: str, seed: int, source: str) -> dict:
                 "encoding": "utf-8",
                 "schema": table_schema(name),
             }
-            for name in CONTRACT
+            for name in _tables(written)
         ],
         "ebbtide": {
             "format_version": FORMAT_VERSION,
@@ -105,6 +124,11 @@ def descriptor(study: Study, session_id: str, seed: int, source: str) -> dict:
             "study": study.source_text,
         },
     }
+    for resource in package["resources"]:
+        if resource["name"] == "surveys":
+            # Each item's wording per language and its allowed answers (the study's own words).
+            resource["ebbtide_items"] = survey_codebook(study)
+    return package
 
 
 def write_export(
@@ -118,14 +142,14 @@ def write_export(
     """Write decisions.csv, rounds.csv, seats.csv and datapackage.json into ``out_dir``."""
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)
-    for name, columns in CONTRACT.items():
+    for name, columns in _tables(tables).items():
         write_table(out / f"{name}.csv", columns, tables[name])
-    return write_descriptor(out, study, session_id, seed, source)
+    return write_descriptor(out, study, session_id, seed, source, tuple(tables))
 
 
-def write_descriptor(out: Path, study: Study, session_id: str, seed: int, source: str) -> Path:
+def write_descriptor(out: Path, study: Study, session_id: str, seed: int, source: str, written=()) -> Path:
     """Write datapackage.json into the export folder ``out``; return the folder."""
-    package = descriptor(study, session_id, seed, source)
+    package = descriptor(study, session_id, seed, source, written)
     (out / "datapackage.json").write_text(
         json.dumps(package, indent=2, ensure_ascii=False) + "\n", encoding="utf-8"
     )

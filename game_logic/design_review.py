@@ -8,6 +8,7 @@ from __future__ import annotations
 import math
 
 from .benchmarks import equilibria, maximum_sustainable_yield
+from .field_day_spec import day_plan
 from .money import earnings, money_text
 from .study import Study, participant_text_warnings
 
@@ -59,10 +60,9 @@ def design_warnings(study: Study) -> list[str]:
 
 
 def expected_minutes(study: Study) -> float:
-    """Setup, every round at its stated pace, talk pauses, and the debrief."""
-    s = study.session
-    talk = sum(b.rounds * b.talk_seconds / 60 for b in study.blocks if b.talk)
-    return s.setup_minutes + study.total_rounds * s.minutes_per_round + talk + s.debrief_minutes
+    """Setup, every round at its stated pace, talk pauses, the debrief, and the field day's
+    consent, instructions, practice and questionnaires (``field_day_spec.day_plan``)."""
+    return sum(minutes for _, minutes in day_plan(study))
 
 
 def design_summary(study: Study) -> list[str]:

@@ -8,7 +8,10 @@ sent. It joins three things and nothing else:
 - the group's part of a revealed debrief (``debrief.participant_debrief``), only after
   the facilitator revealed it;
 - neutral UI state: the log position, the seat's language, the talk seconds left and
-  the session's status as this seat should wait on it.
+  the session's status as this seat should wait on it;
+- the field day's screen of the seat (``field_day_view.field_day_screen``: consent,
+  instructions, questions, questionnaires, risk task, end card) and, while its group
+  practises, the practice stock in place of the paid one.
 
 Pictures and sentences (the gauge, the debrief charts and sentences, the caution) are
 words and drawings in the seat's language, so the shell draws them, through a
@@ -26,6 +29,8 @@ from pydantic import BaseModel, ConfigDict, Field, NonNegativeInt, PositiveInt
 
 from .debrief import finished_outcomes, participant_debrief
 from .early_warning import BANDS, TRENDS
+from .field_day import practice_study
+from .field_day_view import FieldDayScreen, field_day_screen
 from .money import earnings
 from .session_fold import CLOSED
 from .treatments import participant_view
@@ -129,6 +134,7 @@ class PhoneView(_Sealed):
     rounds_in_block: PositiveInt | None = None
     continuation_probability: Annotated[float, Field(gt=0, lt=1)] | None = None
     last_round: LastRound | None = None
+    practice: bool = False  # an unpaid practice round on the group's own practice stock
 
 
 class WhatIfCut(_Sealed):
@@ -182,6 +188,7 @@ class PhoneSnapshot(_Sealed):
     currency: str | None = None
     gauge_svg: str  # drawn from ``view`` only
     debrief: PhoneDebrief | None = None  # only after the facilitator's reveal
+    field_day: FieldDayScreen | None = None  # the seat's stage of the day and only that stage's words
 
     def payload(self) -> dict[str, Any]:
         """The JSON sent to the phone.
@@ -218,12 +225,23 @@ def phone_snapshot(
     """Seat ``seat`` of group ``group`` (both 0-based): its whole screen state, validated."""
     study = state.study
     progress = state.groups[group]
-    money = earnings(progress.units[seat], study.payment)
-    raw_view = participant_view(study, progress.state, seat, progress.last_outcome, money.points)
-    label = study.block_label(progress.state.block, language)
-    ended = progress.state.end_reason if progress.state.block_over else None
-    view = PhoneView.model_validate({**raw_view, "block_label": label, "unit": study.unit_label(language),
-                                     "block_end": ended})
+    practising = progress.practice is not None
+    if practising:
+        # Practice: its own stock, rounds and points (which pay nothing).
+        playing_study, playing = practice_study(study), progress.practice
+        last = progress.practice_outcomes[-1] if progress.practice_outcomes else None
+        units = sum(o.taken[seat] for o in progress.practice_outcomes)
+        sources = progress.practice_sources
+    else:
+        playing_study, playing, last = study, progress.state, progress.last_outcome
+        units, sources = progress.units[seat], progress.sources
+    points = earnings(units, study.payment).points
+    money = earnings(progress.units[seat], study.payment)  # cash so far: practice pays nothing
+    raw_view = participant_view(playing_study, playing, seat, last, points)
+    label = playing_study.block_label(playing.block, language)
+    ended = playing.end_reason if playing.block_over else None
+    view = PhoneView.model_validate({**raw_view, "block_label": label, "practice": practising,
+                                     "unit": study.unit_label(language), "block_end": ended})
     pays_cash = study.payment.exchange_rate > 0
     debrief = None
     if state.debrief_revealed:
@@ -245,11 +263,12 @@ def phone_snapshot(
         waiting_for_block=progress.waiting,
         decided=mine is not None,
         my_harvest=None if mine is None else mine.harvest,
-        missed_last_round=progress.last_outcome is not None and progress.sources[-1][seat] == CLOSED,
+        missed_last_round=last is not None and sources[-1][seat] == CLOSED,
         talk_remaining=None if talk_remaining is None else round(talk_remaining, 1),
         view=view,
         cash_so_far=money.cash if pays_cash else None,
         currency=study.payment.currency if pays_cash else None,
         gauge_svg=painter.gauge(view),
         debrief=debrief,
+        field_day=None if state.day is None else field_day_screen(state, group, seat, language),
     )

@@ -40,6 +40,25 @@ def behaviour_rng(seed: int, group: int, block: int) -> np.random.Generator:
     return np.random.default_rng([seed, BEHAVIOUR_STREAM, group, block])
 
 
+# Streams 1-4 belong to the game and the behaviour models; the field day has its own.
+PRACTICE_STREAM = 5
+RISK_TASK_STREAM = 6
+
+
+def practice_threshold_rng(seed: int, group: int) -> np.random.Generator:
+    """Generator for the threshold of a group's practice stock (its own, not the game's)."""
+    return np.random.default_rng([seed, PRACTICE_STREAM, group, 0])
+
+
+def practice_round_rng(seed: int, group: int, round_number: int) -> np.random.Generator:
+    """Generator for the draws of one practice round of one group."""
+    return np.random.default_rng([seed, PRACTICE_STREAM, group, 1, round_number])
+
+
+def risk_task_rng(seed: int, group: int, seat: int) -> np.random.Generator:
+    """Generator for the one 50/50 draw of a seat's risk-attitude task."""
+    return np.random.default_rng([seed, RISK_TASK_STREAM, group, seat])
+
 
 # --- The same draws for many groups at once -------------------------------------------------
 # Making one Generator per (group, block, round) costs about 20 microseconds, which is most of

@@ -20,7 +20,12 @@ Pacing rules (also in ``docs/server.md``):
 - a correction (``harvest_corrected``) replaces a seat's decision only while its
   round is open; a resolved round never changes;
 - a released seat (``seat_released``) forgets the devices that held it: only a
-  device that presents the seat card again holds it afterwards.
+  device that presents the seat card again holds it afterwards;
+- the field day's stages (consent, instructions, comprehension, questionnaires, risk
+  task) are folded by ``game_logic.field_day``; practice rounds (``practice`` in the
+  harvest) come first on their own stock and pay nothing; the group then waits for
+  ``block_opened``; a seat left absent after a declined consent takes no harvest and
+  a round resolves once every present seat has decided.
 """
 
 from __future__ import annotations
@@ -30,6 +35,7 @@ from collections.abc import Iterable
 from dataclasses import dataclass, field, fields, replace
 from typing import Any
 
+from ebbtide.game_logic.field_day import FIELD_DAY_KINDS, FieldDay, practice_start, practice_study
 from ebbtide.game_logic.rounds import (
     GroupState,
     RoundOutcome,
@@ -39,7 +45,7 @@ from ebbtide.game_logic.rounds import (
     resolve,
     start_block,
 )
-from ebbtide.game_logic.seeding import round_rng
+from ebbtide.game_logic.seeding import practice_round_rng, round_rng
 from ebbtide.game_logic.study import Study
 
 from .errors import Refused, RoundClosed, UnknownGroup, UnknownSeat
@@ -60,6 +66,18 @@ class Decision:
     source: str
     decision_id: str | None
     event_id: int | None = None  # the event a correction must name to supersede this one
+    language: str = ""  # the phone's language when it sent the decision
+    pictures: bool | None = None  # whether the phone was in pictures mode
+
+
+@dataclass(frozen=True)
+class DecisionTiming:
+    """When a decision of a resolved round was stored, by event id (the shell has the times)."""
+
+    opened_event: int  # the event that opened the round
+    decision_events: tuple[int | None, ...]  # per seat; None for a seat that never decided
+    languages: tuple[str, ...]
+    pictures: tuple[bool | None, ...]
 
 
 @dataclass(frozen=True)
@@ -84,6 +102,17 @@ class GroupProgress:
     units: list[int] = field(default_factory=list)  # whole units each seat took so far: the money record
     waiting: bool = False  # block over, next block not yet opened by the facilitator
     paused: bool = False  # phones of this group wait; the console may still enter harvests
+    practice: GroupState | None = None  # the practice stock while the group practises
+    practice_outcomes: list[RoundOutcome] = field(default_factory=list)
+    practice_sources: list[tuple[str, ...]] = field(default_factory=list)
+    timings: list[DecisionTiming] = field(default_factory=list)  # one per outcome, in order
+    practice_timings: list[DecisionTiming] = field(default_factory=list)
+    opened_event: int = 0  # the event that opened the current round
+
+    @property
+    def playing(self) -> GroupState:
+        """The stock being played now: the practice stock while practising."""
+        return self.practice if self.practice is not None else self.state
 
     @property
     def last_outcome(self) -> RoundOutcome | None:
@@ -106,6 +135,7 @@ class SessionState:
     receipts: dict[str, Receipt] = field(default_factory=dict)
     seq: int = 0
     debrief_revealed: bool = False  # the facilitator showed the debrief to participants
+    day: FieldDay | None = None  # consent, instructions, questionnaires, ... (field_day.py)
 
     @classmethod
     def new(cls, study: Study, seed: int, session_id: str) -> SessionState:
@@ -113,7 +143,21 @@ class SessionState:
             GroupProgress(start_block(study, seed, g, 0), units=[0] * study.seats)
             for g in range(study.groups.count)
         ]
-        return cls(study=study, seed=seed, session_id=session_id, groups=groups)
+        if study.practice.rounds:
+            for g, progress in enumerate(groups):
+                progress.practice = practice_start(study, seed, g)
+        return cls(study=study, seed=seed, session_id=session_id, groups=groups,
+                   day=FieldDay.new(study, seed))
+
+    def game_over(self, g: int) -> bool:
+        return self.status == "ended" or self.groups[g].state.session_over
+
+    def seat_stage(self, g: int, seat: int) -> str:
+        """Where seat ``seat`` of group ``g`` stands in the day (``field_day.STAGES``)."""
+        return self.day.seat_stage(g, seat, self.game_over(g))
+
+    def present_seats(self, g: int) -> list[int]:
+        return [s for s in range(self.study.seats) if not self.day.absent(g, s)]
 
     def fork(self) -> SessionState:
         """A copy to fold the next events into, leaving this version exactly as it is.
@@ -125,6 +169,8 @@ class SessionState:
         """
         forked = _with_fresh_containers(self)
         forked.groups = [_with_fresh_containers(progress) for progress in self.groups]
+        if self.day is not None:
+            forked.day = self.day.fork()  # its seats' days are copied when they change
         return forked
 
     # -- checks (raise Refused, change nothing) -------------------------------
@@ -147,7 +193,10 @@ class SessionState:
         self._check_not_ended()
         if self.status == "setup":
             raise RoundClosed("not_started", "the session has not started yet; wait for the facilitator")
-        check_block_open(progress.state)
+        if progress.practice is not None and progress.practice.block_over:
+            raise RoundClosed("block_over", f"the practice rounds are over for group {group + 1}; "
+                              "wait for the paid game")
+        check_block_open(progress.playing)  # the practice stock while the group practises
         return progress
 
     def _check_not_ended(self) -> None:
@@ -206,6 +255,10 @@ class SessionState:
                 )
         elif kind == "debrief_revealed":
             self._check_reveal()
+        elif kind in FIELD_DAY_KINDS:
+            group = body.get("group")
+            self.group(group if isinstance(group, int) else -1)
+            self.day.check(kind, body, self.game_over(group))
         elif kind not in AUDIT_KINDS:
             raise Refused("unknown_event", f"unknown event {kind!r}")
 
@@ -221,8 +274,14 @@ class SessionState:
             raise Refused("already_revealed", "the debrief has already been revealed to participants")
 
     def _check_open_round(self, body: dict[str, Any], decided_ok: bool) -> GroupProgress:
-        progress = self.open_round(body["group"])
-        state = progress.state
+        progress = self.group(body["group"])
+        practising = progress.practice is not None
+        # Phones always say which they mean, so a late practice decision never counts as paid play.
+        if "practice" in body and bool(body["practice"]) != practising:
+            word = "practice rounds" if practising else "the paid game"
+            raise RoundClosed("wrong_round", f"group {body['group'] + 1} is playing {word} now")
+        self.open_round(body["group"])
+        state = progress.playing
         current = (state.block + 1, state.round + 1)
         asked_for = (body["block"], body["round"])
         if asked_for < current:
@@ -255,6 +314,11 @@ class SessionState:
         seat = body["seat"]
         self._check_seat(seat)
         check_harvest(self.study, seat, body["harvest"])
+        if self.day.absent(body["group"], seat):
+            raise Refused("seat_absent", f"seat {seat + 1} did not agree to take part; it plays no round")
+        if body["source"] != "console" and not self.day.consented(body["group"], seat):
+            raise Refused("no_consent",
+                          f"seat {seat + 1} has not agreed to take part yet; consent comes first")
         if seat in progress.pending:
             raise Refused(
                 "already_decided",
@@ -299,8 +363,13 @@ class SessionState:
             self.devices[(body["group"], body["seat"])] = []
             self.released.add((body["group"], body["seat"]))
             return resolved
+        if kind in FIELD_DAY_KINDS:
+            self.day.apply(kind, body, seq)
+            return resolved
         if kind == "session_started":
             self.status = "running"
+            for progress in self.groups:
+                progress.opened_event = seq
         elif kind == "session_paused":
             self.status = "paused"
         elif kind == "session_resumed":
@@ -314,33 +383,56 @@ class SessionState:
         elif kind == "harvest_submitted":
             g, seat = body["group"], body["seat"]
             progress = self.groups[g]
-            progress.pending[seat] = Decision(body["harvest"], body["source"], decision_id, seq)
+            progress.pending[seat] = Decision(body["harvest"], body["source"], decision_id, seq,
+                                              body.get("language", ""), body.get("pictures"))
             if decision_id is not None:
                 self.receipts[decision_id] = Receipt(g, seat, body["block"], body["round"], body["harvest"])
-            if len(progress.pending) == self.study.seats:
+            if set(progress.pending) >= set(self.present_seats(g)):
                 resolved.append(self._resolve(g))
         elif kind == "round_closed":
             resolved.append(self._resolve(body["group"]))
         elif kind == "block_opened":
             progress = self.groups[body["group"]]
-            progress.state = next_block(self.study, self.seed, progress.state)
+            if progress.practice is not None:
+                progress.practice = None  # practice over: the paid game's first block begins
+            else:
+                progress.state = next_block(self.study, self.seed, progress.state)
             progress.waiting = False
+            progress.opened_event = seq
         elif kind == "debrief_revealed":
             self.debrief_revealed = True
         return resolved
 
     def _resolve(self, g: int) -> RoundOutcome:
         progress = self.groups[g]
-        state = progress.state
+        state = progress.playing
         seats = range(self.study.seats)
         missing = Decision(0, CLOSED, None)
-        decisions = [progress.pending.get(s, missing) for s in seats]
+        absent = Decision(0, "absent", None)
+        decisions = [absent if self.day.absent(g, s) else progress.pending.get(s, missing) for s in seats]
+        timing = DecisionTiming(
+            progress.opened_event, tuple(d.event_id for d in decisions),
+            tuple(d.language for d in decisions), tuple(d.pictures for d in decisions),
+        )
+        progress.opened_event = self.seq
+        progress.pending = {}
+        if progress.practice is not None:
+            # Practice: its own stock and draws; nothing is added to anyone's units.
+            rng = practice_round_rng(self.seed, g, state.round + 1)
+            harvests = [d.harvest for d in decisions]
+            new_state, outcome = resolve(practice_study(self.study), state, harvests, rng)
+            progress.practice = new_state
+            progress.practice_outcomes.append(outcome)
+            progress.practice_sources.append(tuple(d.source for d in decisions))
+            progress.practice_timings.append(timing)
+            progress.waiting = new_state.block_over
+            return outcome
         rng = round_rng(self.seed, g, state.block, state.round + 1)
         new_state, outcome = resolve(self.study, state, [d.harvest for d in decisions], rng)
         progress.state = new_state
         progress.outcomes.append(outcome)
         progress.sources.append(tuple(d.source for d in decisions))
-        progress.pending = {}
+        progress.timings.append(timing)
         for s in seats:
             progress.units[s] += outcome.taken[s]
         progress.waiting = new_state.block_over and not new_state.session_over

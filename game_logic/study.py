@@ -25,6 +25,15 @@ from pydantic import (
 )
 
 from .errors import StudyError
+from .field_day_spec import (
+    ComprehensionQuestion,
+    ConsentSpec,
+    InstructionStep,
+    PracticeSpec,
+    Questionnaire,
+    RiskTaskSpec,
+    language_problems,
+)
 
 TREATMENTS = ("none", "vague", "range", "exact", "risk", "signal")
 GROWTH_LAWS = ("logistic", "allee", "grazing", "step")
@@ -319,7 +328,16 @@ class Study(_Frozen):
     end: EndSpec = EndSpec()
     blocks: Annotated[tuple[BlockSpec, ...], Field(min_length=1, max_length=12)]
     payment: PaymentSpec = PaymentSpec()
+    # The field day around the game (game_logic/field_day_spec.py); all optional.
+    consent: ConsentSpec | None = None
+    instructions: Annotated[tuple[InstructionStep, ...], Field(max_length=30)] = ()
+    comprehension: Annotated[tuple[ComprehensionQuestion, ...], Field(max_length=20)] = ()
+    practice: PracticeSpec = PracticeSpec()
+    questionnaires: Annotated[tuple[Questionnaire, ...], Field(max_length=6)] = ()
+    risk_task: RiskTaskSpec | None = None
     source_text: str = Field(default="", exclude=True, repr=False)
+    # The study folder (pictures and sounds live there); empty for a study given as text.
+    folder: str = Field(default="", exclude=True, repr=False)
 
     @model_validator(mode="after")
     def _consistent(self):
@@ -353,6 +371,9 @@ class Study(_Frozen):
                     f"recovery level (threshold + recovery_gap, up to {top:g}) must stay below "
                     f"resource.capacity {self.resource.capacity}, or a degraded stock never recovers"
                 )
+        field_day = language_problems(self)
+        if field_day:
+            raise ValueError("; ".join(field_day))
         return self
 
     @property
@@ -451,11 +472,17 @@ def parse_study(text: str) -> Study:
     return study.model_copy(update={"source_text": text})
 
 
+STUDY_FOLDER_FILE = "study.toml"
+
+
 def load_study(path: str | Path) -> Study:
-    """Read and validate a study file from disk."""
+    """Read and validate a study file, or a study folder (its ``study.toml`` plus the
+    pictures and sounds it names), from disk."""
     path = Path(path)
+    if path.is_dir():
+        path = path / STUDY_FOLDER_FILE
     try:
         text = path.read_text(encoding="utf-8")
     except OSError as exc:
         raise StudyError([f"cannot read {path}: {exc.strerror}"]) from exc
-    return parse_study(text)
+    return parse_study(text).model_copy(update={"folder": str(path.parent.resolve())})

@@ -38,6 +38,7 @@ def create_app(config: dict[str, Any] | None = None) -> Flask:
     from .console import fallbacks  # noqa: F401 - registers handlers
     from .console import routes as console_routes
     from .phone import events as phone_events  # noqa: F401 - registers handlers
+    from .phone import field_day as field_day_events  # noqa: F401 - registers handlers and /media
     from .phone import routes as phone_routes
     from .registry import Registry
     from .store import Store

@@ -70,14 +70,29 @@ def main() -> None:
 
 
 @main.command()
-@click.argument("study_file", type=click.Path(dir_okay=False))
+@click.argument("study_file", type=click.Path())
 def check(study_file: str) -> None:
-    """Validate STUDY_FILE and print a one-screen summary of the design."""
+    """Validate STUDY_FILE (a TOML file, or a study folder holding study.toml, its pictures
+    and sounds) and print a one-screen summary of the design."""
     from ebbtide.game_logic.design_review import design_summary, design_warnings
+    from ebbtide.game_logic.field_day_spec import day_plan, missing_media
 
     study = _load(study_file)
+    missing = missing_media(study, study.folder)
+    if missing:
+        click.echo(f"{study_file}: {len(missing)} picture or sound file(s) named by the study are missing "
+                   f"from {study.folder}:", err=True)
+        for name in missing:
+            click.echo(f"  - {name}", err=True)
+        sys.exit(2)
     for line in design_summary(study):
         click.echo(line)
+    clock = 0.0
+    click.echo("plan of the day (minutes from the start):")
+    for stage, minutes in day_plan(study):
+        if minutes:
+            click.echo(f"  {clock:5.0f}-{clock + minutes:<5.0f} {stage}")
+            clock += minutes
     warnings = design_warnings(study)
     for warning in warnings:
         click.echo(f"warning: {warning}")
@@ -85,7 +100,7 @@ def check(study_file: str) -> None:
 
 
 @main.command()
-@click.argument("study_file", type=click.Path(dir_okay=False))
+@click.argument("study_file", type=click.Path())
 @click.option("--groups", type=click.IntRange(1, 100_000), default=200, show_default=True,
               help="Simulated groups to play through the design.")
 @click.option("--seed", type=click.IntRange(0, 2**63 - 1), default=1, show_default=True,
@@ -440,7 +455,7 @@ _PORT = click.option("--port", type=click.IntRange(0, 65535), default=8750, show
 
 
 @main.command()
-@click.argument("study_file", type=click.Path(dir_okay=False))
+@click.argument("study_file", type=click.Path())
 @click.option("--db", "db_path", type=click.Path(dir_okay=False), default=None,
               help="SQLite file of the session [default: SESSION-ID.db in this folder].")
 @_HOST
@@ -566,7 +581,8 @@ def export(db_path: str, out_dir: str, stata: bool) -> None:
     for folder in folders:
         final = out / folder.relative_to(staging)
         extra = " and .dta" if stata else ""
-        click.echo(f"wrote {final}/decisions.csv, rounds.csv, seats.csv{extra}, datapackage.json")
+        click.echo(f"wrote {final}/decisions.csv, rounds.csv, seats.csv, surveys.csv, timeline.csv{extra}, "
+                   "datapackage.json")
 
 
 @main.command()

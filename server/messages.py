@@ -21,6 +21,9 @@ SeatNumber = Annotated[int, Field(ge=1, le=100)]
 Harvest = Annotated[int, Field(ge=0, le=1000)]
 EntryId = Annotated[int, Field(ge=1, le=2**62)]
 # Who typed a console entry (initials), kept in the event log; blank means "console".
+LanguageCode = Annotated[str, StringConstraints(pattern=r"^[a-z]{2,3}([_-][A-Za-z0-9]{2,8})?$")]
+ItemId = Annotated[str, StringConstraints(pattern=r"^[a-z0-9][a-z0-9_-]{0,31}$")]
+StepNumber = Annotated[int, Field(ge=0, le=30)]
 Operator = Annotated[str, StringConstraints(pattern=r"^[A-Za-z0-9 .'-]{0,24}$")]
 
 
@@ -59,6 +62,51 @@ class HarvestRequest(_Message):
     # Optional, 1-based: a phone that names a seat must name its own.
     group: GroupNumber | None = None
     seat: SeatNumber | None = None
+    # Which stock the phone was showing (practice rounds pay nothing), its language and mode:
+    # stored with the decision for the export.
+    practice: bool = False
+    language: LanguageCode | None = None
+    pictures: bool | None = None
+
+
+class ConsentAnswer(_Message):
+    """A person's answer to the consent text, with the language and hash of the text shown."""
+
+    agree: bool
+    language: LanguageCode
+    text_sha256: Annotated[str, StringConstraints(pattern=r"^[0-9a-f]{64}$")]
+
+
+class InstructionStepRequest(_Message):
+    """The instruction step a phone moves to (0-based; the count of steps means done)."""
+
+    step: StepNumber
+
+
+class ComprehensionAnswer(_Message):
+    question: ItemId
+    choice: Annotated[int, Field(ge=1, le=12)]
+
+
+class SurveyAnswer(_Message):
+    """One questionnaire answer: a choice number, choice numbers, a number or text."""
+
+    questionnaire: ItemId
+    item: ItemId
+    answer: Annotated[int, Field(ge=-(10**9), le=10**9)] | Annotated[
+        list[Annotated[int, Field(ge=1, le=12)]], Field(max_length=12)
+    ] | Annotated[str, StringConstraints(max_length=1000)]
+
+
+class RiskChoice(_Message):
+    gamble: Annotated[int, Field(ge=1, le=8)]
+
+
+class GroupStep(_Message):
+    """Facilitator: show instruction step ``step`` (1-based; steps + 1 = done) on a group's phones."""
+
+    group: GroupNumber
+    step: Annotated[int, Field(ge=1, le=31)]
 
 
 class GroupTarget(_Message):

@@ -46,7 +46,8 @@ class Bot:
     acknowledged: int = 0
     refused: int = 0
     last_refusal: str = ""
-    _asking: tuple[int, int] | None = None
+    _asking: tuple[int, int, bool] | None = None
+    _answering: str = ""  # the field-day screen last answered (consent, questions, ...)
     _lock: threading.Lock = field(default_factory=threading.Lock)
 
     def start(self, url: str) -> None:
@@ -62,17 +63,28 @@ class Bot:
     @property
     def finished(self) -> bool:
         snap = self.latest
-        return bool(snap) and (snap["status"] == "ended" or snap["view"]["session_over"])
+        over = bool(snap) and (snap["status"] == "ended" or snap["view"]["session_over"])
+        day = (snap or {}).get("field_day") or {}
+        return over and day.get("stage", "end") in ("end", "declined")
 
     def _on_snapshot(self, snap: dict) -> None:
         with self._lock:
             self.latest = snap
+            day = snap.get("field_day") or {}
+            if day.get("stage", "game") not in ("game", "end", "declined"):
+                screen = repr(day)
+                if screen != self._answering:
+                    self._answering = screen
+                    event, body = field_day_answer(day, self.rng)
+                    pause = float(self.rng.uniform(*self.think_seconds))
+                    threading.Timer(pause, self._call, args=(event, body)).start()
+                return
             view = snap["view"]
             open_round = (
                 snap["status"] == "running" and not snap["decided"]
                 and not snap["waiting_for_block"] and not view["block_over"]
             )
-            where = (view["block"], view["round"])
+            where = (view["block"], view["round"], bool(view.get("practice")))
             if not open_round or self._asking == where:
                 return
             self._asking = where
@@ -80,18 +92,21 @@ class Bot:
             pause = float(self.rng.uniform(*self.think_seconds))
         threading.Timer(pause, self._send, args=(where, harvest)).start()
 
-    def _send(self, where: tuple[int, int], harvest: int) -> None:
-        block, round_number = where
+    def _send(self, where: tuple[int, int, bool], harvest: int) -> None:
+        block, round_number, practice = where
         # One id per seat and round: a resend after a reconnect is never counted twice.
-        decision_id = f"bot-{self.key.short_code}-b{block}-r{round_number}"
+        decision_id = f"bot-{self.key.short_code}-b{block}-r{round_number}" + ("-p" if practice else "")
         body = {"decision_id": decision_id, "block": block, "round": round_number,
-                "harvest": harvest}
+                "harvest": harvest, "practice": practice}
+        self._call("harvest", body)
+
+    def _call(self, event: str, body: dict) -> None:
         reply = None
         # The first snapshot arrives while the connection is still being confirmed,
         # and a reconnect can drop it again: retry a few times, then give up.
         for _attempt in range(20):
             try:
-                reply = self.client.call("harvest", body, timeout=10)
+                reply = self.client.call(event, body, timeout=10)
                 break
             except socketio.exceptions.BadNamespaceError as exc:
                 reply = {"ok": False, "message": f"not connected: {exc}"}
@@ -106,10 +121,33 @@ class Bot:
                 self.refused += 1
                 self.last_refusal = str((reply or {}).get("message", reply))
                 self._asking = None  # let the next snapshot try this round again
+                self._answering = ""
 
     def stop(self) -> None:
         if self.client.connected:
             self.client.disconnect()
+
+
+def field_day_answer(day: dict, rng: np.random.Generator) -> tuple[str, dict]:
+    """A bot's answer to a field-day screen: it agrees, reads every instruction screen,
+    tries the choices of a question in order until one is right, gives a valid answer
+    to each questionnaire item and picks an envelope at random."""
+    stage = day["stage"]
+    if stage in ("consent", "replace"):
+        consent = day["consent"]
+        return "consent", {"agree": True, "language": consent["language"],
+                           "text_sha256": consent["text_sha256"]}
+    if stage == "instructions":
+        return "instruction_step", {"step": day["instruction"]["steps"]}
+    if stage == "comprehension":
+        question = day["question"]
+        choice = question["wrong_tries"] % len(question["choices"]) + 1
+        return "comprehension_answer", {"question": question["id"], "choice": choice}
+    if stage == "risk":
+        return "risk_choice", {"gamble": int(rng.integers(len(day["risk"]["gambles"]))) + 1}
+    item = day["survey"]
+    answer = {"single": 1, "multiple": [1], "scale": 3, "text": ""}.get(item["kind"], item["min"])
+    return "survey_answer", {"questionnaire": item["questionnaire"], "item": item["item"], "answer": answer}
 
 
 @dataclass(frozen=True)

@@ -174,6 +174,7 @@
     card.id = "group-" + g.group;
     card.appendChild(el("h2", S.group + " " + g.group_id));
     var line = groupLine(g);
+    if (g.practice && state.status !== "setup") card.appendChild(el("p", "\u270E " + S.practice, "notice"));
     card.appendChild(el("p", S.block + " " + g.block + "/" + state.blocks + " (" + g.block_name + ", " +
       g.treatment + ") · " + S.round + " " + g.round + " · " + S.stock + " " + g.stock + " · " + line, "state-line"));
 

@@ -86,6 +86,8 @@
   }
 
   var socket = io({ auth: { secret: secret, device: device, fresh: fresh } });
+  // The field day's screens (phone-day.js) share this socket and these words.
+  window.ebbtidePhone = { socket: socket, S: S, fmt: fmt, showProblem: showProblem };
 
   // The facilitator released this seat: forget it here; the card's link or code takes it back.
   function released(p) {
@@ -221,7 +223,8 @@
   $("confirm").addEventListener("click", function () {
     if (!snap || pending() || talkLeft() > 0 || choice === null) return;
     var v = snap.view;
-    var decision = { decision_id: randomId(), block: v.block, round: v.round, harvest: choice };
+    var decision = { decision_id: randomId(), block: v.block, round: v.round, harvest: choice,
+                     practice: !!v.practice, language: document.documentElement.lang, pictures: pictorial };
     setPending(decision);
     retrying = false;
     $("problem").hidden = true;
@@ -448,6 +451,10 @@
 
   function render() {
     if (!snap) return;
+    // Consent, instructions, questions, questionnaires and the end are the field day's screens.
+    var dayScreen = window.ebbtideDay ? window.ebbtideDay.render(snap) : false;
+    document.body.classList.toggle("day-screen", dayScreen);
+    if (dayScreen) { $("status").textContent = ""; return; }
     var v = snap.view;
     $("seat-line").textContent = fmt("your_seat", { seat: v.seat, seats: v.seats }) + " · " +
       (v.rounds_in_block ? fmt("block_round_of", { block: v.block, blocks: v.blocks, round: v.round, rounds: v.rounds_in_block })
@@ -465,7 +472,7 @@
     if (snap.cash_so_far != null) $("cash").textContent = fmt("cash_so_far", { amount: num(snap.cash_so_far), currency: snap.currency });
     renderBlockNews(v);
 
-    var key = v.block + "." + v.round;
+    var key = (v.practice ? "practice." : "") + v.block + "." + v.round;
     if (key !== roundKey) { roundKey = key; choice = null; }
     var mine = pending();
     var status = "";

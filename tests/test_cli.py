@@ -89,3 +89,17 @@ def test_pilot_is_byte_for_byte_reproducible(tmp_path):
 def test_pilot_refuses_bad_options(tmp_path, args, message):
     result = CliRunner().invoke(main, ["pilot", str(DEMO), "--out", str(tmp_path), *args])
     assert result.exit_code == 2 and message in result.output
+
+
+def test_check_lists_missing_pictures_and_sounds_of_a_study_folder(tmp_path):
+    import shutil
+
+    folder = tmp_path / "day"
+    shutil.copytree(ROOT / "examples" / "saltmarsh-day", folder)
+    ok = CliRunner().invoke(main, ["check", str(folder)])
+    assert ok.exit_code == 0, ok.output
+    assert "plan of the day" in ok.output and "consent" in ok.output
+    (folder / "pictures" / "shared-bed.svg").unlink()
+    missing = CliRunner().invoke(main, ["check", str(folder)])
+    assert missing.exit_code == 2
+    assert "- pictures/shared-bed.svg" in missing.output

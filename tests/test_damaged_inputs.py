@@ -29,7 +29,10 @@ WRONG = {
     "number": ["abc", "-1", "inf"],
     "boolean": ["maybe", "yes", ""],
     "string": [""],
+    "datetime": ["yesterday", "2026-13-40T25:00:00"],  # not ISO 8601 (ISO 8601-1:2019)
 }
+# Optional columns that may be empty only for some sources (the reader's cross-field check).
+EMPTY_ONLY_FOR_SOME_SOURCES = {"harvest_asked", "harvest_taken", "points"}
 
 
 def _rows(text: str) -> list[list[str]]:
@@ -52,6 +55,11 @@ def _cell_damages():
                 continue  # free text (block name, end reason) may be anything
             if column.type == "number" and not column.constraints.get("required"):
                 wrong = [w for w in wrong if w != ""]  # an empty threshold means "none"
+            if column.type in ("integer", "boolean") and not column.constraints.get("required") \
+                    and column.name not in EMPTY_ONLY_FOR_SOME_SOURCES:
+                wrong = [w for w in wrong if w != ""]  # no risk gamble, an unknown pictures mode
+            if column.type == "string" and not column.constraints.get("required"):
+                wrong = [w for w in wrong if w != ""]  # empty: not asked, no risk task
             if column.name == "regrowth":
                 wrong = [w for w in wrong if w != "-3"]  # regrowth may be negative
             for value in wrong:

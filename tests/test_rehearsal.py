@@ -8,10 +8,11 @@ import numpy as np
 import pytest
 import requests
 import socketio
-from conftest import WAIT_SECONDS, connect_console, connect_phone, wait_until
+from conftest import ROOT, WAIT_SECONDS, connect_console, connect_phone, wait_until
 from helpers_study import make_study
 
 from ebbtide.game_logic.behaviour import choose_from_view, make_model
+from ebbtide.game_logic.study import load_study
 from ebbtide.server.console.access import rehearsal_token
 from ebbtide.server.rehearsal import rehearse
 
@@ -57,6 +58,39 @@ def test_bots_play_every_round_of_a_live_session(start_server, demo_study):
     rows = [s for o, sources in live.state.outcomes() for s in sources]
     assert len(rows) == 40 and set(rows) == {"bot"}
     assert all(o.regime_after == "good" for o, _ in live.state.outcomes())
+
+
+def test_bots_go_through_the_whole_field_day(start_server):
+    study = load_study(ROOT / "examples" / "saltmarsh-day")
+    server = start_server(study)
+    console = connect_console(server.url, server.pin)
+    result = {}
+    bots = threading.Thread(
+        target=lambda: result.update(r=rehearse(server.url, study, server.keys, server.live.record.secret_key,
+                                                strategy="sustainable",
+                                                seed=3, think_seconds=(0.0, 0.02), max_seconds=90)),
+        daemon=True,
+    )
+    live = server.live
+    seats = [(g, s) for g in range(2) for s in range(3)]
+    try:
+        bots.start()
+        wait_until(lambda: all(live.state.seat_stage(g, s) == "game" for g, s in seats), "every bot ready")
+        assert console.act("console_start")["ok"]
+        for what in ("practice", "block 1"):  # then blocks 2 opens after block 1
+            wait_until(lambda: all(g.waiting for g in live.state.groups), f"every group to end {what}")
+            assert console.act("console_open_block", {})["ok"]
+        bots.join(timeout=90)
+    finally:
+        console.close()
+    assert result["r"].finished
+    # 2 groups x 3 seats x 8 paid rounds; 1 practice round each; every seat reached the end.
+    assert sum(len(g.outcomes) for g in live.state.groups) == 16
+    assert all(len(g.practice_outcomes) == 1 for g in live.state.groups)
+    assert all(live.state.seat_stage(g, s) == "end" for g, s in seats)
+    # The bots tried the question's choices in order: a wrong first try, then the right one.
+    assert all([right for _, right, _ in live.state.day.seats[k].attempts["what-grows"]] == [False, True]
+               for k in seats)
 
 
 def test_a_phone_cannot_call_itself_a_bot(start_server, demo_study):

@@ -90,10 +90,11 @@ def test_pages_carry_security_headers(client):
     assert headers["X-Content-Type-Options"] == "nosniff"
 
 
-def test_export_zip_holds_the_four_contract_files(client):
+def test_export_zip_holds_the_contract_files_surveys_and_timeline(client):
     import io
     import zipfile
 
     data = logged_in(client).get("/console/export.zip").data
     names = sorted(n.split("/")[1] for n in zipfile.ZipFile(io.BytesIO(data)).namelist())
-    assert names == ["datapackage.json", "decisions.csv", "rounds.csv", "seats.csv"]
+    assert names == ["datapackage.json", "decisions.csv", "rounds.csv", "seats.csv", "surveys.csv",
+                     "timeline.csv"]

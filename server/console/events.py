@@ -46,7 +46,7 @@ def on_close_round(conn: Connection, live: LiveSession, msg: GroupTarget):
     """Facilitator: resolve the open round now; seats that have not decided take 0."""
 
     for g in _groups(live, msg, live.state.round_is_open):
-        state = live.state.groups[g].state
+        state = live.state.groups[g].playing  # the practice stock while the group practises
         live.submit("round_closed", {"group": g, "block": state.block + 1, "round": state.round + 1})
         send_group(live, g)
     if live.state.status == "ended":

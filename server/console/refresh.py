@@ -74,7 +74,8 @@ def refresh_for(app, session_id: str, send_now: Callable) -> CoalescedRefresh:
     def send() -> None:
         with app.app_context():
             registry = app.extensions["ebbtide"]
-            if registry.current_id == session_id:
+            # A refresh deferred past shutdown has nothing to show (the console panel reads the store).
+            if registry.current_id == session_id and not registry.store.closed:
                 send_now(registry.current)
 
     def later(delay: float, fn: Callable[[], None]) -> None:

@@ -27,8 +27,12 @@ def on_harvest(conn: Connection, live: LiveSession, msg: HarvestRequest):
                       "a phone decides only for its own seat")
     body = {
         "group": conn.group, "seat": conn.seat, "block": msg.block, "round": msg.round,
-        "harvest": msg.harvest, "source": conn.agent,
+        "harvest": msg.harvest, "source": conn.agent, "practice": msg.practice,
     }
+    if msg.language is not None:
+        body["language"] = msg.language
+    if msg.pictures is not None:
+        body["pictures"] = msg.pictures
     if msg.decision_id not in live.state.receipts:  # no choices while the group talks
         refuse_during_talk(live, conn.group, msg.block, msg.round)
     change = live.submit("harvest_submitted", body, decision_id=msg.decision_id)

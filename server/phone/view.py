@@ -20,6 +20,7 @@ from ebbtide.game_logic.early_warning import health_reading
 from ebbtide.game_logic.phone_snapshot import DebriefFacts, PhoneView, phone_snapshot
 from ebbtide.game_logic.treatments import participant_view
 
+from ..console.day import add_day_to_console_snapshot
 from ..console.talk import talk_remaining
 from ..pictures.chart import PHONE, stock_path_svg
 from ..pictures.gauge import stock_gauge_svg
@@ -126,7 +127,8 @@ def add_to_console_snapshot(live, snapshot: dict[str, Any]) -> dict[str, Any]:
                 }
     snapshot["debrief_revealed"] = state.debrief_revealed
     snapshot["teaching_view"] = live.study.session.teaching_view
-    return snapshot
+    # Consent, stages, stuck seats and the day's clock (console/day.py).
+    return add_day_to_console_snapshot(live, snapshot)
 
 
 def phone_more_strings() -> dict[str, str]:
@@ -152,6 +154,47 @@ def phone_more_strings() -> dict[str, str]:
         "debrief_crossed": _("Your group's stock crossed it in round %(round)s."),
         "debrief_never": _("Your group's stock never crossed it."),
         "debrief_none": _("No part of the game had finished."),
+        **field_day_strings(),
+    }
+
+
+def field_day_strings() -> dict[str, str]:
+    """Words of the field day's phone screens (static/phone-day.js)."""
+    return {
+        "day_consent_title": _("Before we start"),
+        "day_agree": _("I agree"),
+        "day_decline": _("I do not agree"),
+        "day_declined": _("Thank you. You will not play; you are paid the show-up fee."),
+        "day_hand_back": _("Please give the seat card back to the facilitator."),
+        "day_new_person": _("A new person takes this seat"),
+        "day_step": _("Screen %(n)s of %(count)s"),
+        "day_listen": _("Listen"),
+        "day_back": _("Back"),
+        "day_next": _("Next"),
+        "day_done": _("Done"),
+        "day_led": _("The facilitator moves these screens for the whole group."),
+        "day_question": _("Question %(n)s of %(count)s"),
+        "day_try_again": _("Please try again."),
+        "day_check": _("Check my answer"),
+        "day_item": _("Question %(n)s of %(count)s"),
+        "day_send": _("Send"),
+        "day_answer_first": _("Please answer first."),
+        "day_scale_1": _("Disagree strongly"),
+        "day_scale_2": _("Disagree"),
+        "day_scale_3": _("Neither"),
+        "day_scale_4": _("Agree"),
+        "day_scale_5": _("Agree strongly"),
+        "day_risk_title": _("Choose an envelope"),
+        "day_gamble": _("Envelope %(n)s: %(low)s or %(high)s points"),
+        "day_risk_unpaid": _("This choice is not paid."),
+        "day_risk_low": _("Envelope %(n)s: the coin gave the lower amount, %(points)s points."),
+        "day_risk_high": _("Envelope %(n)s: the coin gave the higher amount, %(points)s points."),
+        "day_practice": _("Practice round: it pays nothing"),
+        "day_line_game": _("The game, with the show-up fee"),
+        "day_line_risk": _("The envelope"),
+        "day_line_declined": _("Show-up fee"),
+        "day_total": _("To collect"),
+        "day_collect": _("Show your seat card to the facilitator to be paid."),
     }
 
 

@@ -10,7 +10,7 @@ from __future__ import annotations
 from collections.abc import Callable
 from pathlib import Path
 
-from ebbtide.exports.build import tables_from_outcomes
+from ebbtide.exports.field_day import live_tables
 from ebbtide.exports.writer import write_export
 from ebbtide.game_logic.session_fold import SessionState, replay
 from ebbtide.game_logic.study import parse_study
@@ -30,12 +30,13 @@ def session_state(store: Store, session_id: str) -> SessionState:
 
 def export_session(store: Store, session_id: str, out_dir: str | Path) -> Path:
     """Write decisions.csv, rounds.csv, seats.csv and datapackage.json of one session."""
-    state = session_state(store, session_id)
-    pairs = state.outcomes()
-    sources = {id(outcome): src for outcome, src in pairs}
-    tables = tables_from_outcomes(
-        state.study, session_id, [o for o, _ in pairs], lambda o: sources[id(o)]
-    )
+    record = store.session(session_id)
+    if record is None:
+        raise KeyError(f"no session {session_id!r} in {store.path}")
+    events = store.events(session_id)
+    state = replay(parse_study(record.study_text), record.seed, session_id, events)
+    # Decision timing, practice rows, cash lines, surveys.csv and timeline.csv (exports/field_day.py).
+    tables = live_tables(state, session_id, {e.id: e.created_at for e in events}, events)
     return write_export(out_dir, state.study, session_id, state.seed, EXPORT_SOURCE, tables)
 
 

@@ -104,6 +104,7 @@ class Store:
         self._lost: list[tuple[int, int]] = []  # (after, through): changes of a commit that failed
         self._in_flight = 0  # callers inside ``writing()``: about to write, worth waiting for
         self.gather_seconds = GATHER_SECONDS
+        self.closed = False  # set by close(): late background work (a deferred console refresh) stops
         self._create_tables()
 
     def close(self) -> None:
@@ -111,6 +112,7 @@ class Store:
             if self.db.conn.in_transaction:
                 self.db.conn.execute("COMMIT")
             self.db.close()
+            self.closed = True
 
     def __enter__(self) -> Store:
         return self
@@ -331,6 +333,27 @@ class Store:
                 self.db.query("SELECT * FROM events WHERE session_id = ? ORDER BY id", (session_id,))
             )
         return [_event(row) for row in rows]
+
+    def first_times(self, session_id: str) -> dict[str, str]:
+        """When each kind of event first happened in a session (the console's clock of the day)."""
+        with self._lock:
+            if self.closed:
+                return {}  # shutting down: the console's clock has nobody to show it to
+            rows = self.db.query(
+                "SELECT kind, MIN(created_at) AS first FROM events WHERE session_id = ? GROUP BY kind",
+                (session_id,),
+            )
+            return {row["kind"]: row["first"] for row in rows}
+
+    def last_events(self, session_id: str, limit: int) -> list[Event]:
+        """The latest ``limit`` events of a session, oldest first."""
+        with self._lock:
+            if self.closed:
+                return []
+            rows = list(self.db.query(
+                "SELECT * FROM events WHERE session_id = ? ORDER BY id DESC LIMIT ?", (session_id, limit)
+            ))
+        return [_event(row) for row in reversed(rows)]
 
 
 class Writer:
