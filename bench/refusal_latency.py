@@ -26,7 +26,7 @@ ROOT = Path(__file__).resolve().parent.parent
 sys.path.insert(0, str(ROOT))
 sys.path.insert(0, str(ROOT / "tests"))
 
-from helpers_study import make_study  # noqa: E402
+from studies import make_study  # noqa: E402
 
 from ebbtide.server import create_app  # noqa: E402
 from ebbtide.server.serving import build_server  # noqa: E402

@@ -20,7 +20,7 @@ from pathlib import Path
 ROOT = Path(__file__).resolve().parent.parent
 sys.path.insert(0, str(ROOT / "tests"))
 
-from helpers_study import make_study  # noqa: E402
+from studies import make_study  # noqa: E402
 
 from ebbtide.game_logic.session_fold import SessionState  # noqa: E402
 

@@ -4,8 +4,8 @@ from pathlib import Path
 
 import numpy as np
 import pytest
-from helpers_study import make_study
 from scipy import stats
+from studies import make_study
 
 from ebbtide.game_logic.behaviour import (
     MODEL_NAMES,

@@ -7,6 +7,7 @@ import functools
 import numpy as np
 import pytest
 from numpy.testing import assert_allclose
+from studies import DP_TOML, dp_study
 
 from ebbtide.game_logic.benchmarks import (
     optimal_group_policy,
@@ -16,34 +17,6 @@ from ebbtide.game_logic.benchmarks import (
 from ebbtide.game_logic.resource import next_regime, regrow
 from ebbtide.game_logic.rounds import advance
 from ebbtide.game_logic.study import parse_study
-
-TEMPLATE = """
-[session]
-id = "dp-case"
-title = "Dynamic programming check (invented)"
-[groups]
-count = 1
-seats_per_group = {seats}
-[resource]
-capacity = {capacity}
-initial_stock = {start}
-max_harvest = {cap}
-degraded_growth_factor = 0.2
-[resource.growth]
-law = "logistic"
-r = 0.5
-[threshold]
-{threshold}
-[[blocks]]
-name = "season"
-rounds = {rounds}
-"""
-
-
-def make_study(seats=4, capacity=100, start=80, cap=10, threshold='rule = "none"', rounds=10):
-    return parse_study(TEMPLATE.format(
-        seats=seats, capacity=capacity, start=start, cap=cap, threshold=threshold, rounds=rounds
-    ))
 
 
 def follow(study, policy, start, threshold):
@@ -62,7 +35,7 @@ def follow(study, policy, start, threshold):
 def test_last_round_takes_everything_without_threshold(rounds):
     # Known answer: with linear payoff, no threshold and nothing after the block,
     # the planner's last round takes all it may (common practice, no source).
-    study = make_study(rounds=rounds)
+    study = dp_study(rounds=rounds)
     policy = optimal_group_policy(study, rounds)
     stocks = np.arange(study.resource.capacity + 1)
     expected = np.minimum(stocks, study.seats * study.resource.max_harvest)
@@ -76,7 +49,7 @@ def test_optimum_keeps_stock_at_or_above_known_threshold_until_final_rounds():
     # is to hold the remainder at the threshold and take its regrowth,
     # round_half_up(g(60)) = round(0.5 * 60 * 0.4) = 12 a round (Clark, Mathematical
     # Bioeconomics, ch. 1: a stock constraint binds above the golden-rule stock).
-    study = make_study(threshold='rule = "fixed"\nvalue = 60\nrecovery_gap = 15', rounds=40)
+    study = dp_study(threshold='rule = "fixed"\nvalue = 60\nrecovery_gap = 15', rounds=40)
     policy = optimal_group_policy(study, 40)
     kept, taken = follow(study, policy, 80, 60)
     assert min(kept[:-2]) >= 60
@@ -89,7 +62,7 @@ def test_steady_escapement_approaches_msy_stock_for_logistic_growth():
     # optimal escapement is the MSY stock K/2. Grid tolerance: whole-unit rounding makes
     # every R with g(R) >= rK/4 - 1/2 give the same take, i.e. |R - K/2| <= sqrt(K / (2r))
     # = 31.6 units of 1,000.
-    study = make_study(seats=10, capacity=1000, start=800, cap=100, rounds=60)
+    study = dp_study(seats=10, capacity=1000, start=800, cap=100, rounds=60)
     policy = optimal_group_policy(study, 60)
     kept, _ = follow(study, policy, 800, float("nan"))
     middle = np.array(kept[5:50])
@@ -99,7 +72,7 @@ def test_steady_escapement_approaches_msy_stock_for_logistic_growth():
 def test_heavy_discounting_makes_the_planner_take_the_maximum():
     # A planner who hardly values the future behaves like open access (Clark,
     # Mathematical Bioeconomics, ch. 2: infinite discount rate).
-    study = make_study(threshold='rule = "fixed"\nvalue = 40\nrecovery_gap = 15', rounds=8)
+    study = dp_study(threshold='rule = "fixed"\nvalue = 40\nrecovery_gap = 15', rounds=8)
     policy = optimal_group_policy(study, 8, discount=0.01)
     stocks = np.arange(101)
     assert_allclose(policy.harvest[:, 0, :], np.broadcast_to(np.minimum(stocks, 40), (8, 101)), atol=0)
@@ -108,7 +81,7 @@ def test_heavy_discounting_makes_the_planner_take_the_maximum():
 def test_value_matches_brute_force_expectimax_with_flip_risk():
     # Independent check: plain recursion over every harvest and both flip outcomes,
     # written from the model's rules, on a tiny stock.
-    study = parse_study(TEMPLATE.format(
+    study = parse_study(DP_TOML.format(
         seats=2, capacity=12, start=10, cap=3, rounds=4,
         threshold='rule = "fixed"\nvalue = 6\nrecovery_gap = 3\nflip_probability = 0.4',
     ))
@@ -139,7 +112,7 @@ def test_uniform_threshold_value_matches_simulation_through_the_model():
     # The class decomposition makes the expectation over T ~ U(20, 40) exact: playing
     # the policy through rounds.advance with drawn thresholds and flips must give the
     # same mean total within Monte Carlo error (4 standard errors).
-    study = make_study(threshold='rule = "uniform"\nlow = 20\nhigh = 40\nrecovery_gap = 12.5\n'
+    study = dp_study(threshold='rule = "uniform"\nlow = 20\nhigh = 40\nrecovery_gap = 12.5\n'
                                  'flip_probability = 0.6', rounds=12)
     policy = optimal_group_policy(study, 12)
     rng = np.random.default_rng(20240611)
@@ -163,26 +136,26 @@ def test_uniform_threshold_value_matches_simulation_through_the_model():
 def test_threshold_belief_weights_lengths_of_classes():
     # Integer gap: the dynamics change only as T crosses a whole number, so a uniform
     # T on [20, 40] falls into 20 equally likely classes.
-    study = make_study(threshold='rule = "uniform"\nlow = 20\nhigh = 40\nrecovery_gap = 15')
+    study = dp_study(threshold='rule = "uniform"\nlow = 20\nhigh = 40\nrecovery_gap = 15')
     belief = threshold_belief(study)
     assert len(belief.values) == 20
     assert_allclose(belief.weights, np.full(20, 0.05), rtol=1e-12)
     uneven = 'rule = "uniform"\nlow = 20\nhigh = 40\nrecovery_gap = 15.5'
-    half = threshold_belief(make_study(threshold=uneven))
+    half = threshold_belief(dp_study(threshold=uneven))
     assert len(half.values) == 40
     assert_allclose(sum(half.weights), 1.0, rtol=1e-12)
 
 
 def test_selfish_take_drains_the_stock_in_one_round_when_maximum_exceeds_it():
     # 2 seats x 50 > 80 units: the first round takes all 80, nothing regrows from 0.
-    study = make_study(seats=2, cap=50, threshold='rule = "fixed"\nvalue = 30\nrecovery_gap = 15')
+    study = dp_study(seats=2, cap=50, threshold='rule = "fixed"\nvalue = 30\nrecovery_gap = 15')
     assert_allclose(selfish_group_take(study, 5, np.random.default_rng(3), replicates=10), 80.0, atol=0)
 
 
 def test_selfish_take_matches_hand_iteration_without_threshold():
     # Hand iteration of the logistic rule for 4 x 10 = 40 taken each round from 80:
     # 80 -40-> 40 -> 40 + 0.5*40*0.6 = 52 -40-> 12 -> 12 + 0.5*12*0.88 = 17.28 -> 17 -> take 17.
-    study = make_study()
+    study = dp_study()
     assert_allclose(selfish_group_take(study, 3, np.random.default_rng(0), replicates=3), 40 + 40 + 17,
                     atol=0)
 
@@ -194,11 +167,11 @@ def test_selfish_take_matches_hand_iteration_without_threshold():
 )
 def test_optimal_policy_refuses_bad_arguments(kwargs, message):
     with pytest.raises(ValueError, match=message):
-        optimal_group_policy(make_study(), **kwargs)
+        optimal_group_policy(dp_study(), **kwargs)
 
 
 def test_random_stopping_lowers_the_planners_expected_take():
-    study = make_study(threshold='rule = "fixed"\nvalue = 40\nrecovery_gap = 15', rounds=10)
+    study = dp_study(threshold='rule = "fixed"\nvalue = 40\nrecovery_gap = 15', rounds=10)
     sure = optimal_group_policy(study, 10).value_at(80)
     risky = optimal_group_policy(study, 10, continuation=[0.8] * 9).value_at(80)
     assert risky < sure

@@ -12,7 +12,7 @@ import threading
 
 import pytest
 from conftest import ARTIFACTS, connect_console, connect_phone, wait_until
-from teach_study import TREATMENTS, teach_study
+from studies import TREATMENTS, teach_study
 
 from ebbtide.server import create_app
 from ebbtide.server.serving import build_server

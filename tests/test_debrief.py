@@ -5,55 +5,16 @@ import json
 import numpy as np
 import pytest
 from numpy.testing import assert_allclose
+from studies import DEBRIEF_SEED as SEED
+from studies import DEBRIEF_TOML, debrief_study
 
 from ebbtide.game_logic.debrief import CAUTION, debrief_block, debrief_group, regrowth_lost, what_if
 from ebbtide.game_logic.rounds import Regime, next_block, resolve, start_block
 from ebbtide.game_logic.seeding import round_rng
 from ebbtide.game_logic.study import parse_study
 
+
 # Invented Ulmsby reed-bed study: numbers made up for the tests.
-STUDY_TOML = """
-[session]
-id = "ulmsby-test"
-title = "Ulmsby reed beds (test)"
-
-[groups]
-count = 2
-seats_per_group = 2
-
-[resource]
-capacity = 100
-initial_stock = 80
-max_harvest = 15
-degraded_growth_factor = 0.2
-
-[resource.growth]
-law = "logistic"
-r = 0.5
-
-[threshold]
-rule = "fixed"
-value = 40
-recovery_gap = 15
-flip_probability = {flip}
-
-[[blocks]]
-name = "season-one"
-treatment = "{treatment}"
-rounds = {rounds}
-
-[[blocks]]
-name = "season-two"
-treatment = "none"
-rounds = 4
-"""
-SEED = 20240611
-
-
-def make_study(flip=1.0, treatment="exact", rounds=8):
-    return parse_study(STUDY_TOML.format(flip=flip, treatment=treatment, rounds=rounds))
-
-
 def play(study, asks_per_round, group=0, seed=SEED, blocks=1):
     """Play blocks through resolve with the session's generators; returns all outcomes."""
     state = start_block(study, seed, group, 0)
@@ -73,7 +34,7 @@ GREEDY = [[10, 10]] * 8  # 20 a round drains a logistic stock of 80 below 40 in 
 
 
 def test_what_if_with_zero_cut_reproduces_actual_path_exactly():
-    study = make_study(flip=0.5, treatment="risk")
+    study = debrief_study(flip=0.5, treatment="risk")
     outcomes = play(study, [GREEDY])
     replay = what_if(study, SEED, outcomes, 0)
     assert replay.stock_path == (outcomes[0].stock_before, *(o.stock_after for o in outcomes))
@@ -86,7 +47,7 @@ def test_greedy_path_crosses_at_the_hand_computed_round():
     # 80 -20-> 60 -> 72; 72 -> 52 -> 64 (64.48); 64 -> 44 -> 56 (56.32);
     # 56 -> 36 < 40: crosses in round 4, regrows at 0.2 x logistic: 36 + 2.30 -> 38;
     # 38 -> 18 -> 19 (19.48); round 6 can take only 19, the stock is exhausted.
-    study = make_study()
+    study = debrief_study()
     block = debrief_block(study, SEED, play(study, [GREEDY]))
     assert block.stock_path == (80, 72, 64, 56, 38, 19, 0)
     assert block.total_taken == 5 * 20 + 19
@@ -98,7 +59,7 @@ def test_greedy_path_crosses_at_the_hand_computed_round():
 
 
 def test_taking_less_avoids_the_crossing():
-    study = make_study()
+    study = debrief_study()
     block = debrief_block(study, SEED, play(study, [GREEDY]), less_by=(3,))
     (replay,) = block.what_ifs
     assert block.crossed
@@ -113,7 +74,7 @@ def test_taking_less_avoids_the_crossing():
 
 
 def test_regrowth_lost_is_good_minus_degraded_regrowth_from_same_remainder():
-    study = make_study()
+    study = debrief_study()
     outcomes = play(study, [GREEDY])
     lost = regrowth_lost(study, outcomes)
     first = next(i for i, o in enumerate(outcomes) if o.regime_after is Regime.DEGRADED)
@@ -126,12 +87,12 @@ def test_regrowth_lost_is_good_minus_degraded_regrowth_from_same_remainder():
 
 
 def test_regrowth_lost_is_empty_without_a_crossing():
-    study = make_study()
+    study = debrief_study()
     assert regrowth_lost(study, play(study, [[[2, 2]] * 8])) == ()
 
 
 def test_stock_is_conserved_and_never_negative_in_actual_and_what_if():
-    study = make_study(flip=0.7, treatment="risk")
+    study = debrief_study(flip=0.7, treatment="risk")
     rng = np.random.default_rng(5)
     asks = [[int(a) for a in rng.integers(0, 16, size=2)] for _ in range(8)]
     outcomes = play(study, [asks])
@@ -152,14 +113,14 @@ def test_stock_is_conserved_and_never_negative_in_actual_and_what_if():
 def test_what_if_uses_the_same_flip_draws_as_the_group():
     # With flip probability 0.5 the crossing depends on the draws; a zero cut
     # under a wrong seed would cross elsewhere, so the record check refuses it.
-    study = make_study(flip=0.5, treatment="risk")
+    study = debrief_study(flip=0.5, treatment="risk")
     outcomes = play(study, [GREEDY])
     with pytest.raises(ValueError, match="differ from seed 1; pass the seed the session was played with"):
         what_if(study, 1, outcomes, 0)
 
 
 def test_debrief_group_covers_every_block_and_serialises_to_json():
-    study = make_study(rounds=5)
+    study = debrief_study(rounds=5)
     outcomes = play(study, [GREEDY[:5], [[3, 3]] * 4], blocks=2)
     debrief = debrief_group(study, SEED, outcomes, less_by=(1,))
     assert [b.name for b in debrief.blocks] == ["season-one", "season-two"]
@@ -178,13 +139,13 @@ def test_caution_says_teaching_device_not_forecast():
 
 @pytest.mark.parametrize("bad", [-1, 1.5, True, "2"])
 def test_debrief_rejects_bad_cut(bad):
-    study = make_study()
+    study = debrief_study()
     with pytest.raises(ValueError, match="allowed: whole numbers of units, 0 or more"):
         debrief_block(study, SEED, play(study, [GREEDY]), less_by=(bad,))
 
 
 def test_debrief_rejects_outcomes_out_of_order():
-    study = make_study()
+    study = debrief_study()
     outcomes = play(study, [GREEDY])
     with pytest.raises(ValueError, match="rounds must run 1, 2, 3"):
         debrief_block(study, SEED, outcomes[::-1])
@@ -192,11 +153,11 @@ def test_debrief_rejects_outcomes_out_of_order():
 
 def test_debrief_rejects_empty_record():
     with pytest.raises(ValueError, match="no outcomes given"):
-        debrief_group(make_study(), SEED, [])
+        debrief_group(debrief_study(), SEED, [])
 
 
 def test_regrowth_lost_total_matches_sum():
-    study = make_study()
+    study = debrief_study()
     block = debrief_block(study, SEED, play(study, [GREEDY]))
     assert_allclose(block.total_regrowth_lost, sum(block.regrowth_lost), atol=0)
     assert block.rounds_degraded == len(block.regrowth_lost)
@@ -207,7 +168,7 @@ def test_zero_cut_reproduces_every_pilot_group_exactly():
     # replay of each simulated group must land on the same stocks.
     from ebbtide.game_logic.pilot import run_pilot
 
-    study = make_study(flip=0.6, treatment="risk", rounds=6)
+    study = debrief_study(flip=0.6, treatment="risk", rounds=6)
     run = run_pilot(study, 12, SEED, "conditional")
     for g in range(12):
         record = [o for o in run.outcomes if o.group == g]
@@ -219,7 +180,7 @@ def test_zero_cut_reproduces_every_pilot_group_exactly():
 
 def test_what_if_starts_from_carried_stock_and_regime():
     second_block = 'treatment = "none"\nrounds = 4'
-    carried = STUDY_TOML.replace(second_block, second_block + "\nreset_stock = false")
+    carried = DEBRIEF_TOML.replace(second_block, second_block + "\nreset_stock = false")
     study = parse_study(carried.format(flip=1.0, treatment="exact", rounds=4))
     outcomes = play(study, [GREEDY[:4], [[1, 1]] * 4], blocks=2)
     second = debrief_group(study, SEED, outcomes, less_by=(0,)).blocks[1]

@@ -18,7 +18,7 @@ import numpy as np
 import pytest
 import socketio
 from conftest import ROOT, ServeProcess, connect_phone, console_login
-from helpers_study import make_study
+from studies import make_study
 
 from ebbtide.game_logic.rounds import resolve, start_block
 from ebbtide.game_logic.seeding import round_rng

@@ -12,7 +12,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 from conftest import WAIT_SECONDS, connect_console, connect_every_seat
-from helpers_study import make_study
+from studies import make_study
 
 from ebbtide.game_logic.rounds import resolve, start_block
 from ebbtide.game_logic.seeding import round_rng

@@ -6,7 +6,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 from click.testing import CliRunner
-from helpers_study import make_study
+from studies import make_study
 
 from ebbtide.analysis.exports_reader import read_export
 from ebbtide.analysis.fitting import fit_model, log_likelihood

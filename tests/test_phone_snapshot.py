@@ -12,13 +12,13 @@ import json
 
 import pytest
 from pydantic import ValidationError
+from studies import BASE, make_study
 
 from ebbtide.game_logic.phone_snapshot import DebriefFacts, PhoneSnapshot, PhoneView, phone_snapshot
 from ebbtide.game_logic.session_fold import SessionState
 from ebbtide.game_logic.study import TREATMENTS, parse_study
 from ebbtide.server.pictures.chart import PHONE, stock_path_svg
 from ebbtide.server.pictures.gauge import stock_gauge_svg
-from tests.helpers_study import BASE, make_study
 
 SEED = 11
 THRESHOLD = 'rule = "fixed"\nvalue = 33.7\nrecovery_gap = 15\nflip_probability = 0.35\nshown_range = [20, 50]'

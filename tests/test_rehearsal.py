@@ -9,7 +9,7 @@ import pytest
 import requests
 import socketio
 from conftest import ROOT, WAIT_SECONDS, connect_console, connect_phone, wait_until
-from helpers_study import make_study
+from studies import make_study
 
 from ebbtide.game_logic.behaviour import choose_from_view, make_model
 from ebbtide.game_logic.study import load_study

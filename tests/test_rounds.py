@@ -6,11 +6,11 @@ import numpy as np
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
+from studies import make_study
 
 from ebbtide.game_logic.errors import InvalidHarvest, RoundClosed
 from ebbtide.game_logic.rounds import Regime, next_block, resolve, start_block
 from ebbtide.game_logic.seeding import round_rng
-from tests.helpers_study import make_study
 
 STUDY = make_study()
 SEED = 7

@@ -7,11 +7,11 @@ because pilot group g must be what a live session gives group g.
 
 import numpy as np
 import pytest
+from studies import make_study
 
 from ebbtide.game_logic.resource import draw_threshold, draw_thresholds
 from ebbtide.game_logic.rounds import group_threshold, group_thresholds
 from ebbtide.game_logic.seeding import bulk_round_draws, bulk_uniforms, round_rng
-from tests.helpers_study import make_study
 
 
 def test_bulk_uniforms_equal_numpy_generators_for_small_and_large_keys():

@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import pytest
 from conftest import ARTIFACTS, connect_console, console_login, study_with, wait_until
-from teach_study import THRESHOLD, teach_study
+from studies import THRESHOLD, teach_study
 
 from ebbtide.game_logic.early_debrief import safe_to_show, thresholds_still_to_play
 from ebbtide.game_logic.rounds import group_threshold, start_block

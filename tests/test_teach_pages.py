@@ -11,7 +11,7 @@ import json
 import pytest
 import requests
 from conftest import connect_console, connect_every_seat, console_login, wait_until
-from teach_study import RECOVERY, THRESHOLD, TREATMENTS, teach_study
+from studies import RECOVERY, THRESHOLD, TREATMENTS, teach_study
 
 from ebbtide.game_logic.session_fold import replay
 

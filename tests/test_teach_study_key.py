@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 import pytest
-from teach_study import TEXT
+from studies import TEXT
 
 from ebbtide.game_logic.design_review import design_warnings
 from ebbtide.game_logic.errors import StudyError

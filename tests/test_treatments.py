@@ -3,11 +3,11 @@
 import json
 
 import pytest
+from studies import make_study
 
 from ebbtide.game_logic.rounds import resolve, start_block
 from ebbtide.game_logic.seeding import round_rng
 from ebbtide.game_logic.treatments import participant_view
-from tests.helpers_study import make_study
 
 SEED = 3
 THRESHOLD = 'rule = "fixed"\nvalue = 33.7\nrecovery_gap = 15\nflip_probability = 0.35\nshown_range = [20, 50]'
