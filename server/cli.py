@@ -434,6 +434,7 @@ def _run_session(
     from ebbtide.server import create_app
     from ebbtide.server.serving import serve as serve_forever
 
+    _refuse_damaged_database(db_path)
     config = {"EBBTIDE_DB": str(db_path), "EBBTIDE_STUDY": study, "EBBTIDE_SEED": seed,
               "EBBTIDE_PIN": pin, "EBBTIDE_NEW_SESSION": new_session}
     try:
@@ -524,6 +525,16 @@ def _not_a_session_database(path: Path) -> str | None:
     return None
 
 
+def _refuse_damaged_database(path: Path) -> None:
+    """One line and exit 2 when an existing, non-empty file is not a session database."""
+    if path.is_file() and path.stat().st_size > 0:
+        reason = _not_a_session_database(path)
+        if reason:
+            click.echo(f"{path}: {reason}; nothing changed; allowed: a session database written by "
+                       "ebbtide serve, or a new file", err=True)
+            sys.exit(2)
+
+
 @main.command()
 @click.argument("db_path", type=click.Path(exists=True, dir_okay=False))
 @click.option("--out", "out_dir", type=click.Path(file_okay=False), required=True,
@@ -574,7 +585,7 @@ def export(db_path: str, out_dir: str, stata: bool) -> None:
     if not folders:
         shutil.rmtree(staging, ignore_errors=True)
         click.echo(f"{db_path} holds no session; nothing written", err=True)
-        sys.exit(1)
+        sys.exit(2)
     if out.exists():
         out.rmdir()
     staging.rename(out)
@@ -609,6 +620,7 @@ def rehearse(db_path: str, url: str, strategy: str, group_codes: str, seed: int,
     from ebbtide.server.rehearsal import rehearse as play
     from ebbtide.server.store import Store
 
+    _refuse_damaged_database(Path(db_path))
     with Store(db_path) as store:
         records = store.sessions()
         if not records:

@@ -8,7 +8,7 @@ import sys
 
 import pytest
 import requests
-from conftest import ROOT, ServeProcess
+from conftest import DEMO, ROOT, ServeProcess
 
 pytestmark = pytest.mark.slow
 
@@ -53,3 +53,20 @@ def test_export_of_a_missing_database_is_refused(tmp_path):
         cwd=ROOT, capture_output=True, text=True, timeout=60,
     )
     assert done.returncode == 2 and "does not exist" in done.stderr
+
+
+@pytest.mark.parametrize("command", ["serve", "rehearse", "export"])
+def test_a_damaged_database_is_one_line_and_exit_2(tmp_path, command):
+    # A file that is not SQLite (its first 16 bytes are not the "SQLite format 3" header).
+    bad = tmp_path / "bad.db"
+    bad.write_bytes(b"not a database at all")
+    args = {
+        "serve": ["serve", str(DEMO), "--db", str(bad), "--port", "0"],
+        "rehearse": ["rehearse", str(bad), "--url", "http://127.0.0.1:9"],
+        "export": ["export", str(bad), "--out", str(tmp_path / "out")],
+    }[command]
+    done = subprocess.run([sys.executable, "-m", "ebbtide.server.cli", *args], cwd=ROOT,
+                          capture_output=True, text=True, timeout=60)
+    assert done.returncode == 2, done.stderr
+    assert "Traceback" not in done.stderr and len(done.stderr.strip().splitlines()) == 1
+    assert bad.read_bytes() == b"not a database at all"  # nothing changed
