@@ -7,21 +7,9 @@
   function fmt(key, values) {
     return (S[key] || key).replace(/%\((\w+)\)s/g, function (_, n) { return values[n]; });
   }
-  function el(tag, text, cls) {
-    var node = document.createElement(tag);
-    if (text !== undefined && text !== null) node.textContent = text;
-    if (cls) node.className = cls;
-    return node;
-  }
-  function row(cells, header) {
-    var tr = el("tr");
-    cells.forEach(function (c) {
-      var cell = el(header ? "th" : "td");
-      if (c instanceof Node) cell.appendChild(c); else cell.textContent = c;
-      tr.appendChild(cell);
-    });
-    return tr;
-  }
+  // The console's element helpers (console.js), one pair for every console script.
+  function el(tag, text, cls) { return window.ebbtideConsole.el(tag, text, cls); }
+  function row(cells, header) { return window.ebbtideConsole.row(cells, header); }
 
   function start() {
     var C = window.ebbtideConsole;

@@ -26,7 +26,7 @@
   var socket = io({ auth: { role: "console" } });
   var state = null;
   // The fall-back section (console-fallback.js) shares this connection.
-  window.ebbtideConsole = { socket: socket, el: el };
+  window.ebbtideConsole = { socket: socket, el: el, row: row };
 
   socket.on("connect", function () { $("connection").textContent = S.connected; });
   socket.on("disconnect", function () { $("connection").textContent = S.disconnected; });
