@@ -88,6 +88,7 @@ seats_per_group = 2
 
 [resource]
 unit = "baskets"
+unit_label = {{ en = "baskets", es = "cestas", fr = "paniers" }}
 capacity = 100
 initial_stock = 50
 max_harvest = 8
