@@ -2,7 +2,9 @@
 
 Builds a session of GROUPS groups of SEATS seats that has played ROUNDS rounds (every
 decision with its receipt, every device claimed), then times ``SessionState.fork()``
-and, for comparison, folding one harvest into the fork. Pure core, no server.
+and, for comparison, folding one harvest into the fork (each version forked from the last,
+as the live server does; one round for every group, so at most groups x seats repeats).
+Pure core, no server.
 
     python bench/session_fork.py --groups 10 --seats 4 --rounds 30 --repeat 2000
 
@@ -54,14 +56,21 @@ def main() -> None:
     state = played_state(args.groups, args.seats, args.rounds)
     assert all(len(p.outcomes) == args.rounds for p in state.groups)
     fork_times, fold_times = [], []
-    body = {"group": 0, "seat": 0, "block": 1, "round": args.rounds + 1, "harvest": 1, "source": "phone"}
-    for i in range(args.repeat):
+    # As the live server does: each version is forked from the one published before it,
+    # and one harvest is folded into it (one round more for every group, seat by seat).
+    version = state
+    repeats = min(args.repeat, args.groups * args.seats)
+    for i in range(repeats):
+        group, seat = divmod(i, args.seats)
+        body = {"group": group, "seat": seat, "block": 1, "round": args.rounds + 1, "harvest": 1,
+                "source": "phone"}
         start = time.perf_counter()
-        draft = state.fork()
+        draft = version.fork()
         forked = time.perf_counter()
-        draft.apply("harvest_submitted", body, f"bench-{i}", 10**9)
+        draft.apply("harvest_submitted", body, f"bench-{i}", 10**9 + i)
         fork_times.append(forked - start)
         fold_times.append(time.perf_counter() - forked)
+        version = draft
     for name, times in (("fork", fork_times), ("fold one harvest", fold_times)):
         times.sort()
         print(f"{name}: median {statistics.median(times) * 1e6:.0f} us, "

@@ -76,12 +76,24 @@ class FieldDay:
         return cls(study, seed, seats)
 
     def fork(self) -> FieldDay:
-        """A copy for the next version of the session (copy-on-write, as ``SessionState.fork``):
-        the dicts are new; a seat's day is copied by ``apply`` before it changes."""
-        return FieldDay(self.study, self.seed, dict(self.seats), dict(self.led_step))
+        """A copy for the next version of the session (copy-on-write, as ``SessionState.fork``).
+
+        The dicts stay shared until this version first changes one (most events of a
+        session change no seat's day, and copying a thousand seats per event would make
+        every decision cost more in a large session); a seat's day is copied before it changes.
+        """
+        forked = FieldDay(self.study, self.seed, self.seats, self.led_step)
+        forked._shared = True
+        return forked
+
+    def _unshare(self) -> None:
+        if getattr(self, "_shared", False):
+            self.seats, self.led_step = dict(self.seats), dict(self.led_step)
+            self._shared = False
 
     def _own(self, key: tuple[int, int]) -> SeatDay:
         # Earlier versions may still hold this SeatDay: change a copy, never the shared one.
+        self._unshare()
         self.seats[key] = copy.deepcopy(self.seats[key])
         return self.seats[key]
 
@@ -212,6 +224,7 @@ class FieldDay:
     def apply(self, kind: str, body: dict[str, Any], seq: int) -> None:
         if kind == "instructions_led":
             g = body["group"]
+            self._unshare()
             self.led_step[g] = body["step"]
             for group, seat in list(self.seats):
                 if group == g and self.consented(group, seat):

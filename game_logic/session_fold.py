@@ -31,7 +31,7 @@ Pacing rules (also in ``docs/server.md``):
 from __future__ import annotations
 
 import copy
-from collections.abc import Iterable
+from collections.abc import Iterable, Iterator, Mapping
 from dataclasses import dataclass, field, fields, replace
 from typing import Any
 
@@ -91,6 +91,44 @@ class Receipt:
     harvest: int
 
 
+class Receipts(Mapping[str, Receipt]):
+    """Every decision id counted so far, shared between versions without copying them all.
+
+    A fork shares the settled receipts and copies only the recent ones; the recent ones
+    are settled into a new shared dict once they outnumber the square root of the
+    settled ones, so a fork costs about the square root of the session's decisions
+    instead of all of them. Receipts are only ever added, never changed.
+    """
+
+    __slots__ = ("_settled", "_recent")
+
+    def __init__(self, settled: dict[str, Receipt] | None = None, recent: dict[str, Receipt] | None = None):
+        self._settled = settled if settled is not None else {}
+        self._recent = recent if recent is not None else {}
+
+    def __getitem__(self, decision_id: str) -> Receipt:
+        receipt = self._recent.get(decision_id)
+        return receipt if receipt is not None else self._settled[decision_id]
+
+    def __contains__(self, decision_id: object) -> bool:
+        return decision_id in self._recent or decision_id in self._settled
+
+    def __iter__(self) -> Iterator[str]:
+        yield from self._settled
+        yield from self._recent
+
+    def __len__(self) -> int:
+        return len(self._settled) + len(self._recent)
+
+    def __setitem__(self, decision_id: str, receipt: Receipt) -> None:
+        self._recent[decision_id] = receipt
+
+    def fork(self) -> Receipts:
+        if len(self._recent) ** 2 > max(len(self._settled), 1024):
+            return Receipts({**self._settled, **self._recent})
+        return Receipts(self._settled, dict(self._recent))
+
+
 @dataclass
 class GroupProgress:
     """One group's state between events."""
@@ -132,7 +170,7 @@ class SessionState:
     groups: list[GroupProgress] = field(default_factory=list)
     devices: dict[tuple[int, int], list[str]] = field(default_factory=dict)  # holders since the last release
     released: set[tuple[int, int]] = field(default_factory=set)
-    receipts: dict[str, Receipt] = field(default_factory=dict)
+    receipts: Receipts = field(default_factory=lambda: Receipts())
     seq: int = 0
     debrief_revealed: bool = False  # the facilitator showed the debrief to participants
     day: FieldDay | None = None  # consent, instructions, questionnaires, ... (field_day.py)
@@ -164,14 +202,36 @@ class SessionState:
 
         Copy-on-write: the live server folds accepted events into a fork and
         publishes it whole, so a reader holding a version never sees it change.
-        Containers are copied one level deep; what they hold is frozen (outcomes,
-        decisions, receipts, group states) or replaced, never changed, by ``apply``.
+        What the fork shares with this version is copied only when the fork first
+        changes it: a group's progress (``_changing_group``), the device lists
+        (``_changing_devices``), the receipts (``Receipts.fork``) and the field day
+        (``FieldDay.fork``). So one decision costs the same with 2 groups or 200,
+        however many rounds were played. What the containers hold is frozen
+        (outcomes, decisions, receipts, group states) or replaced, never changed.
         """
-        forked = _with_fresh_containers(self)
-        forked.groups = [_with_fresh_containers(progress) for progress in self.groups]
+        forked = object.__new__(SessionState)
+        forked.__dict__.update(self.__dict__)
+        forked.groups = list(self.groups)
+        forked._own_groups = set()
+        forked._devices_shared = True
+        forked.receipts = self.receipts.fork()
         if self.day is not None:
-            forked.day = self.day.fork()  # its seats' days are copied when they change
+            forked.day = self.day.fork()
         return forked
+
+    def _changing_group(self, g: int) -> GroupProgress:
+        """Group ``g``'s progress, safe to change in this version (copied once if shared)."""
+        own = self.__dict__.get("_own_groups")
+        if own is not None and g not in own:
+            self.groups[g] = _with_fresh_containers(self.groups[g])
+            own.add(g)
+        return self.groups[g]
+
+    def _changing_devices(self) -> None:
+        """Copy the device lists and releases before this version first changes them."""
+        if self.__dict__.get("_devices_shared"):
+            self.devices, self.released = dict(self.devices), set(self.released)
+            self._devices_shared = False
 
     # -- checks (raise Refused, change nothing) -------------------------------
 
@@ -352,14 +412,15 @@ class SessionState:
         resolved: list[RoundOutcome] = []
         if kind == "harvest_corrected":
             g, seat = body["group"], body["seat"]
-            self.groups[g].pending[seat] = Decision(body["harvest"], "console", decision_id, seq)
+            self._changing_group(g).pending[seat] = Decision(body["harvest"], "console", decision_id, seq)
             if decision_id is not None:
                 self.receipts[decision_id] = Receipt(g, seat, body["block"], body["round"], body["harvest"])
             return resolved
         if kind in GROUP_KINDS:
-            self.groups[body["group"]].paused = kind == "group_paused"
+            self._changing_group(body["group"]).paused = kind == "group_paused"
             return resolved
         if kind == "seat_released":
+            self._changing_devices()
             self.devices[(body["group"], body["seat"])] = []
             self.released.add((body["group"], body["seat"]))
             return resolved
@@ -368,8 +429,8 @@ class SessionState:
             return resolved
         if kind == "session_started":
             self.status = "running"
-            for progress in self.groups:
-                progress.opened_event = seq
+            for g in range(len(self.groups)):
+                self._changing_group(g).opened_event = seq
         elif kind == "session_paused":
             self.status = "paused"
         elif kind == "session_resumed":
@@ -379,10 +440,11 @@ class SessionState:
         elif kind == "seat_claimed":
             devices = self.devices.get((body["group"], body["seat"]), [])
             if body["device"] not in devices:  # a new list: a published version's list never changes
+                self._changing_devices()
                 self.devices[(body["group"], body["seat"])] = [*devices, body["device"]]
         elif kind == "harvest_submitted":
             g, seat = body["group"], body["seat"]
-            progress = self.groups[g]
+            progress = self._changing_group(g)
             progress.pending[seat] = Decision(body["harvest"], body["source"], decision_id, seq,
                                               body.get("language", ""), body.get("pictures"))
             if decision_id is not None:
@@ -392,7 +454,7 @@ class SessionState:
         elif kind == "round_closed":
             resolved.append(self._resolve(body["group"]))
         elif kind == "block_opened":
-            progress = self.groups[body["group"]]
+            progress = self._changing_group(body["group"])
             if progress.practice is not None:
                 progress.practice = None  # practice over: the paid game's first block begins
             else:
@@ -404,7 +466,7 @@ class SessionState:
         return resolved
 
     def _resolve(self, g: int) -> RoundOutcome:
-        progress = self.groups[g]
+        progress = self._changing_group(g)
         state = progress.playing
         seats = range(self.study.seats)
         missing = Decision(0, CLOSED, None)

@@ -65,6 +65,10 @@ class CheckedPacket(sio_packet.Packet):
     """A Socket.IO packet that fails with ``BadFrame`` on anything a client of ours never sends."""
 
     json = BoundedJSON
+    # Nothing the server sends holds bytes (every payload is a JSON-mode dump), and looking
+    # for them walked every snapshot item by item: a sixth of a decision's CPU with hundreds
+    # of phones (docs/performance.md). Bytes sent by mistake fail in json.dumps, loudly.
+    uses_binary_events = False
 
     def decode(self, encoded_packet):
         problem = socket_packet_problem(encoded_packet)

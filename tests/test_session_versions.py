@@ -6,13 +6,18 @@ The reference for "whole" is the stored log itself: a version with sequence numb
 
 from __future__ import annotations
 
+import copy
 import threading
 import time
 
+import numpy as np
 from conftest import DEMO, connect_console
+from test_field_day import DAY
 
+from ebbtide.game_logic.errors import Refused
+from ebbtide.game_logic.field_day import text_sha256
 from ebbtide.game_logic.session_fold import SessionState, replay
-from ebbtide.game_logic.study import load_study
+from ebbtide.game_logic.study import load_study, parse_study
 
 STUDY = load_study(DEMO)
 
@@ -92,3 +97,84 @@ def test_concurrent_readers_only_ever_see_versions_that_match_a_prefix_of_the_lo
         prefix = [e for e in events if e.id <= version.seq]
         assert digest(replay(STUDY, live.record.seed, live.session_id, prefix)) == at_read
     assert live.state.groups[0].state.block_over  # the whole block was played
+
+
+def random_request(rng, state: SessionState) -> tuple[str, dict, str | None]:
+    """One candidate event for the field-day study below; many are refused, which is fine."""
+    study = state.study
+    g, s = int(rng.integers(study.groups.count)), int(rng.integers(study.seats))
+    kind = str(rng.choice(["consent", "step", "led", "question", "harvest", "harvest", "harvest",
+                           "correct", "close", "open", "pause", "claim", "release", "survey",
+                           "risk", "start"]))
+    playing = state.groups[g].playing
+    where = {"group": g, "block": playing.block + 1, "round": playing.round + 1}
+    practice = state.groups[g].practice is not None
+    if kind == "consent":
+        language = str(rng.choice(["en", "fr"]))
+        return "consent_answered", {"group": g, "seat": s, "agree": bool(rng.random() < 0.85),
+                                    "language": language,
+                                    "text_sha256": text_sha256(study.consent.text[language])}, None
+    if kind == "step":
+        return "instruction_step", {"group": g, "seat": s, "step": int(rng.integers(2))}, None
+    if kind == "led":
+        return "instructions_led", {"group": g, "step": int(rng.integers(2))}, None
+    if kind == "question":
+        return "comprehension_answered", {"group": g, "seat": s, "question": "q1",
+                                          "choice": int(rng.integers(1, 3))}, None
+    if kind == "harvest":
+        decision = f"d-{rng.integers(10**9)}"
+        return "harvest_submitted", {**where, "seat": s, "harvest": int(rng.integers(0, 4)),
+                                     "source": str(rng.choice(["phone", "console"])),
+                                     "practice": practice}, decision
+    if kind == "correct":
+        pending = state.groups[g].pending.get(s)
+        supersedes = pending.event_id if pending else 1
+        return "harvest_corrected", {**where, "seat": s, "harvest": int(rng.integers(0, 4)),
+                                     "supersedes": supersedes}, f"c-{rng.integers(10**9)}"
+    if kind == "close":
+        return "round_closed", where, None
+    if kind == "open":
+        return "block_opened", {"group": g}, None
+    if kind == "pause":
+        return str(rng.choice(["group_paused", "group_resumed"])), {"group": g}, None
+    if kind == "claim":
+        return "seat_claimed", {"group": g, "seat": s, "device": f"dev-{rng.integers(3)}"}, None
+    if kind == "release":
+        return "seat_released", {"group": g, "seat": s}, None
+    if kind == "survey":
+        return "survey_answered", {"group": g, "seat": s, "questionnaire": "after", "item": "years",
+                                   "answer": str(rng.integers(0, 80))}, None
+    if kind == "risk":
+        return "risk_chosen", {"group": g, "seat": s, "gamble": int(rng.integers(1, 4))}, None
+    return "session_started", {}, None
+
+
+def test_every_version_of_a_chain_stays_as_published_and_equals_the_fold_of_its_prefix():
+    # Copy-on-write shares what a fork has not changed with the versions before it; the
+    # reference for "unchanged" is a deep copy taken when each version was published, and
+    # for "right" the fold of the same events into one fresh state that is never forked.
+    study = parse_study(DAY.format(on_decline="absent", practice=1).replace("count = 1", "count = 3"))
+    rng = np.random.default_rng(20261202)
+    version = SessionState.new(study, 5, "chain")
+    published: list[tuple[SessionState, SessionState]] = []
+    log: list[tuple[str, dict, str | None, int]] = []
+    for _ in range(3000):
+        kind, body, decision_id = random_request(rng, version)
+        try:
+            version.check(kind, body)
+        except Refused:
+            continue
+        draft = version.fork()
+        seq = version.seq + 1
+        draft.apply(kind, body, decision_id, seq)
+        log.append((kind, body, decision_id, seq))
+        published.append((draft, copy.deepcopy(draft)))
+        version = draft
+    kinds = {kind for kind, *_ in log}
+    assert {"harvest_submitted", "consent_answered", "block_opened", "seat_released"} <= kinds
+    assert any(p.outcomes for p in version.groups)  # rounds were played, not only refused
+    fresh = SessionState.new(study, 5, "chain")
+    for (kind, body, decision_id, seq), (later, at_publication) in zip(log, published, strict=True):
+        fresh.apply(kind, body, decision_id, seq)
+        assert later == at_publication
+        assert later == fresh

@@ -9,6 +9,7 @@ debrief charts and sentences from the already validated parts of the model.
 
 from __future__ import annotations
 
+import json
 from typing import Any
 
 from babel import Locale
@@ -39,6 +40,30 @@ def gauge_labels() -> dict[str, str]:
     if language not in cache:
         cache[language] = _gauge_labels_now()
     return dict(cache[language])
+
+
+GAUGE_CACHE_SIZE = 4096  # distinct (language, stock, danger) pictures kept; a session draws far fewer
+
+
+def gauge_svg(language: str, view: dict[str, Any], id_prefix: str) -> str:
+    """The stock gauge of a participant view in ``language``, drawn once per distinct picture.
+
+    A gauge depends only on the stock, the capacity, the unit and the danger the view
+    allows (``pictures.gauge``), so the five seats of a group, and the console's card of
+    that group, share one drawing; drawing it for every snapshot was a fifth of the
+    server's time in a round with hundreds of phones (docs/performance.md).
+    """
+    key = (language, id_prefix, view["stock"], view["capacity"], str(view.get("unit", "")),
+           json.dumps(view["danger"], sort_keys=True, default=str))
+    cache = current_app.extensions.setdefault("ebbtide_gauges", {})
+    svg = cache.get(key)
+    if svg is None:
+        with force_locale(language), numbers_in(language):
+            svg = stock_gauge_svg(view, labels=gauge_labels(), id_prefix=id_prefix)
+        if len(cache) >= GAUGE_CACHE_SIZE:
+            cache.clear()  # simpler than least-recently-used, and a refill costs one round
+        cache[key] = svg
+    return svg
 
 
 def _gauge_labels_now() -> dict[str, str]:
@@ -77,8 +102,7 @@ class PhonePainter:
         self.language = language
 
     def gauge(self, view: PhoneView) -> str:
-        with force_locale(self.language), numbers_in(self.language):
-            return stock_gauge_svg(view.model_dump(mode="json"), labels=gauge_labels(), id_prefix="stock")
+        return gauge_svg(self.language, view.model_dump(mode="json"), "stock")
 
     def debrief_sentence(self, facts: DebriefFacts, unit: str) -> str:
         with force_locale(self.language):
@@ -111,11 +135,10 @@ def add_to_console_snapshot(live, snapshot: dict[str, Any]) -> dict[str, Any]:
     """Per group: a small gauge as its seats see it, the talk countdown and the signal's parts."""
     state = live.state
     with force_locale(live.study.session.language), numbers_in(live.study.session.language):
-        labels = gauge_labels()
         for g, group in enumerate(snapshot["groups"]):
             progress = state.groups[g]
             view = participant_view(live.study, progress.state, 0, progress.last_outcome, 0)
-            group["gauge_svg"] = stock_gauge_svg(view, labels=labels, id_prefix=f"console-g{g + 1}")
+            group["gauge_svg"] = gauge_svg(live.study.session.language, view, f"console-g{g + 1}")
             left = talk_remaining(live, g)
             group["talk_remaining"] = None if left is None else round(left, 1)
             if group["treatment"] == "signal":

@@ -291,6 +291,12 @@ class Store:
     # -- reading ---------------------------------------------------------------
 
     def _event_by_decision(self, session_id: str, decision_id: str) -> Event | None:
+        # Asked for every decision, almost always in vain: a bare indexed lookup first.
+        found = self.db.conn.execute(
+            "SELECT 1 FROM events WHERE session_id = ? AND decision_id = ?", (session_id, decision_id)
+        ).fetchone()
+        if found is None:
+            return None
         rows = list(
             self.db.query(
                 "SELECT * FROM events WHERE session_id = ? AND decision_id = ?", (session_id, decision_id)
