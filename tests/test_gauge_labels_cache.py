@@ -30,3 +30,24 @@ def test_gauge_labels_cached_per_language_never_mixed(tmp_path):
     es, fr = catalogue_word("es", "Stock"), catalogue_word("fr", "Stock")
     assert seen == [("en", "Stock"), ("es", es), ("fr", fr), ("en", "Stock"), ("es", es)]
     assert catalogue_word("es", "Stock") != "Stock"  # the check above could tell the languages apart
+
+
+def test_a_drawn_gauge_is_reused_only_for_the_same_picture(tmp_path):
+    # Reference: the gauge drawn directly (pictures.gauge), with the catalogue's words.
+    from ebbtide.server.phone.view import gauge_svg
+    from ebbtide.server.pictures.gauge import stock_gauge_svg
+
+    app = create_app({"EBBTIDE_DB": str(tmp_path / "gauges.db")})
+    calm = {"stock": 60, "capacity": 100, "unit": "baskets", "danger": {"kind": "none"}}
+    lower = {**calm, "stock": 59}
+    exact = {**calm, "danger": {"kind": "exact", "level": 30, "recovery": 45}}
+    with app.test_request_context():
+        drawn = {}
+        for language in ("en", "es", "en"):
+            for name, view in (("calm", calm), ("lower", lower), ("exact", exact), ("calm", calm)):
+                drawn[(language, name)] = gauge_svg(language, lambda view=view: view, "stock")
+                with force_locale(language):
+                    direct = stock_gauge_svg(view, labels=gauge_labels(), id_prefix="stock")
+                assert drawn[(language, name)] == direct
+    assert len({drawn[("en", name)] for name in ("calm", "lower", "exact")}) == 3
+    assert drawn[("en", "calm")] != drawn[("es", "calm")]
