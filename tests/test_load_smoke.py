@@ -72,3 +72,4 @@ def test_hundred_phones_deciding_at_once_lose_and_duplicate_nothing(tmp_path):
         if console is not None:
             console.close()
         server.kill()
+    server.assert_no_traceback()
