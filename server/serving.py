@@ -97,7 +97,13 @@ def _gevent_server(app, host: str, port: int):
         def server_close(self) -> None:
             self.close()
 
+    # The error log is also each request's ``wsgi.errors``, where Flask's log handler (on the
+    # logger "ebbtide.server", a parent of this one) writes once a page has failed: it must end at
+    # stderr, or logging one failure feeds itself until RecursionError and the client is never answered.
     errors = logging.getLogger("ebbtide.server.gevent")
+    errors.propagate = False
+    if not errors.handlers:
+        errors.addHandler(logging.StreamHandler(sys.stderr))
     server = GeventServer((host, port), app, handler_class=Handler, log=None, error_log=errors)
     server.init_socket()  # bound now, so the port is known before serving
     return server

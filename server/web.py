@@ -48,8 +48,9 @@ def remember_language(response):
 
 @bp.get("/healthz")
 def healthz():
-    """Liveness probe for tests and scripts."""
-    return {"ok": True, "session_id": registry().current_id}
+    """Liveness probe for tests and scripts; names the server (gevent | threading) that answers."""
+    served_by = current_app.extensions["socketio"].server.eio.async_mode
+    return {"ok": True, "session_id": registry().current_id, "server": served_by}
 
 
 @bp.get("/favicon.ico")

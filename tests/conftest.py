@@ -198,13 +198,33 @@ class ServeProcess:
             cwd=ROOT, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True,
         )
         self.lines: queue.Queue[str] = queue.Queue()
-        threading.Thread(target=self._pump, daemon=True).start()
+        self.errors: list[str] = []  # its stderr, read all along so a full pipe never blocks it
+        self._pumps = [threading.Thread(target=self._pump, daemon=True),
+                       threading.Thread(target=self._pump_errors, daemon=True)]
+        for pump in self._pumps:
+            pump.start()
         self.printed = []
         self.url = self._wait_for_address()
 
     def _pump(self) -> None:
         for line in self.proc.stdout:
             self.lines.put(line)
+
+    def _pump_errors(self) -> None:
+        for line in self.proc.stderr:
+            self.errors.append(line)
+
+    @property
+    def stderr(self) -> str:
+        return "".join(self.errors)
+
+    def assert_no_traceback(self) -> None:
+        """A traceback anywhere in the server's stderr is a defect, even if every client was answered."""
+        assert "Traceback" not in self.stderr, self.stderr[-4000:]
+
+    def served_by(self) -> str:
+        """Which server answers (``/healthz`` names it): gevent's, the production one, or threads."""
+        return requests.get(f"{self.url}/healthz", timeout=5).json()["server"]
 
     def _wait_for_address(self) -> str:
         url = None
@@ -220,12 +240,15 @@ class ServeProcess:
                 wait_until(functools.partial(_answers, f"{url}/healthz"), "the server to answer")
                 return url
         self.kill()
-        raise AssertionError(f"serve printed no address: {self.printed} {self.proc.stderr.read()}")
+        raise AssertionError(f"serve printed no address: {self.printed} {self.stderr}")
 
     def kill(self) -> None:
         """Stop the way a crash or a pulled plug would: no clean shutdown."""
-        self.proc.send_signal(signal.SIGKILL)
+        if self.proc.poll() is None:
+            self.proc.send_signal(signal.SIGKILL)
         self.proc.wait(timeout=10)
+        for pump in self._pumps:  # the pipes end with the process: read what is left
+            pump.join(timeout=5)
         self.proc.stdout.close()
         self.proc.stderr.close()
 

@@ -126,10 +126,13 @@ def test_sigkill_at_random_moments_loses_no_acknowledged_decision(tmp_path):
     pending: dict[tuple[int, int], tuple] = {}
     lock = threading.Lock()
     keys = None
+    servers = []
     for run in range(KILLS + 1):
         extra = ("--seed", str(SEED), "--pin", PIN) if run == 0 else ()
         server = ServeProcess("serve", str(study_path), "--db", str(db), *extra)
+        servers.append(server)
         try:
+            assert server.served_by() == "gevent"  # the production server, not Werkzeug's threads
             if keys is None:
                 with Store(db) as store:
                     keys = store.seat_keys(store.sessions()[0].session_id)
@@ -146,6 +149,8 @@ def test_sigkill_at_random_moments_loses_no_acknowledged_decision(tmp_path):
         for phone in phones:
             phone.join(timeout=15)
             assert not phone.is_alive()
+    for server in servers:  # killed at any moment, none may have failed before that
+        server.assert_no_traceback()
     print(f"crash test: {len(acks)} acknowledged decisions over {KILLS} kills")
     assert len(acks) >= 3 * len(keys), "too few decisions were played to test anything"
 

@@ -33,9 +33,9 @@ def test_hundred_phones_deciding_at_once_lose_and_duplicate_nothing(tmp_path):
     phones = {}
     console = None
     try:
-        # The production server, not Werkzeug's development server (which names itself here).
+        # The production server, not Werkzeug's development server (which names itself here too).
         served_by = requests.get(f"{server.url}/healthz", timeout=10).headers.get("Server", "")
-        assert "werkzeug" not in served_by.lower()
+        assert "werkzeug" not in served_by.lower() and server.served_by() == "gevent"
         keys = sqlite3.connect(db).execute(
             "SELECT group_index, seat_index, secret FROM seat_keys ORDER BY 1, 2").fetchall()
         assert len(keys) == PHONES
@@ -72,3 +72,4 @@ def test_hundred_phones_deciding_at_once_lose_and_duplicate_nothing(tmp_path):
         if console is not None:
             console.close()
         server.kill()
+    server.assert_no_traceback()

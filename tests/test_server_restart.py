@@ -19,6 +19,7 @@ def test_restart_mid_round_loses_no_acknowledged_decision(tmp_path):
     first = ServeProcess("serve", str(DEMO), "--db", str(db), "--seed", str(SEED), "--pin", PIN)
     try:
         assert any("new session" in line for line in first.printed)
+        assert first.served_by() == "gevent"  # the production server, not Werkzeug's threads
         with Store(db) as store:
             keys = store.seat_keys(store.sessions()[0].session_id)
         console = connect_console(first.url, PIN)
@@ -32,10 +33,12 @@ def test_restart_mid_round_loses_no_acknowledged_decision(tmp_path):
             client.close()
     finally:
         first.kill()
+    first.assert_no_traceback()
 
     second = ServeProcess("serve", str(DEMO), "--db", str(db))
     try:
         assert any("resumed session" in line for line in second.printed)
+        assert second.served_by() == "gevent"
         phone_a = connect_phone(second.url, keys[0].secret, device="device-0-0")
         snap = phone_a.latest()
         assert snap["decided"] and snap["my_harvest"] == 9 and snap["status"] == "running"
@@ -49,6 +52,7 @@ def test_restart_mid_round_loses_no_acknowledged_decision(tmp_path):
         phone_b.close()
     finally:
         second.kill()
+    second.assert_no_traceback()
 
     # Independent check straight from the core: same seed, same harvests.
     study = load_study(DEMO)
