@@ -31,6 +31,7 @@ from .console.access import COOKIE_KEY, logins, rehearsal_token, request_login
 from .console.refresh import refresh_for
 from .frame_guard import RESERVED_EVENTS
 from .messages import ConsoleAuth, PhoneAuth, from_validation_error
+from .phone.held_snapshots import held_for
 from .phone.refusals import phone_refusal
 from .phone.view import remember_language, seat_language
 from .registry import LiveSession, Registry
@@ -78,7 +79,18 @@ def send_seat(live: LiveSession, group: int, seat: int) -> None:
 
 
 def send_group(live: LiveSession, group: int) -> None:
+    held_for(current_app, live.session_id, send_seats_now).group_sent(group)
     for seat in range(live.study.seats):
+        send_seat(live, group, seat)
+
+
+def send_seat_soon(live: LiveSession, group: int, seat: int) -> None:
+    """A decided seat's own snapshot, unless its group's result follows at once (phone/held_snapshots.py)."""
+    held_for(current_app, live.session_id, send_seats_now).decided(group, seat)
+
+
+def send_seats_now(live: LiveSession, group: int, seats: list[int]) -> None:
+    for seat in seats:
         send_seat(live, group, seat)
 
 

@@ -73,6 +73,9 @@
   var snap = null;
   var lastSeq = -1;
   var choice = null;  // nothing chosen yet: 0 is chosen on purpose, never by default
+  // A choice the server acknowledged before any snapshot said so: the server holds this seat's
+  // own "recorded" snapshot back a moment, and drops it when the group's result comes first.
+  var acknowledged = null;
   var roundKey = "";
   var talkEndsAt = null;  // this phone's clock: when the talk pause ends
   var talkTimer = null;
@@ -169,6 +172,10 @@
       retrying = false;
       setPending(null);
       if (!ack.ok) showProblem(ack);
+      else if (!snap || snap.seq < ack.seq) {
+        acknowledged = { seq: ack.seq, block: ack.block, round: ack.round, harvest: ack.harvest,
+                         practice: !!decision.practice };
+      }
       render();
     });
   }
@@ -193,6 +200,7 @@
   socket.on("snapshot", function (s) {
     if (s.seq < lastSeq) return;  // an older picture arriving late changes nothing
     lastSeq = s.seq;
+    if (acknowledged && s.seq >= acknowledged.seq) acknowledged = null;  // the server's word now
     snap = s;
     // The server sends seconds left (its clock); this phone counts down on its own.
     talkEndsAt = s.talk_remaining > 0 ? Date.now() + s.talk_remaining * 1000 : null;
@@ -482,6 +490,10 @@
     else if (snap.status === "paused") status = S.paused;
     else if (snap.waiting_for_block || v.block_over) status = S.waiting_block;
     else if (snap.decided) status = fmt("recorded", { n: num(snap.my_harvest), unit: v.unit });
+    else if (acknowledged && acknowledged.block === v.block && acknowledged.round === v.round &&
+             acknowledged.practice === !!v.practice) {
+      status = fmt("recorded", { n: num(acknowledged.harvest), unit: v.unit });
+    }
     else if (mine) status = retrying ? S.retrying : S.sending;
     else canChoose = true;
     $("status").textContent = status;

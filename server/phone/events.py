@@ -14,7 +14,7 @@ from ..sockets import (
     send_console,
     send_everyone,
     send_group,
-    send_seat,
+    send_seat_soon,
 )
 
 
@@ -42,7 +42,7 @@ def on_harvest(conn: Connection, live: LiveSession, msg: HarvestRequest):
         elif change.resolved:
             send_group(live, conn.group)
         else:
-            send_seat(live, conn.group, conn.seat)
+            send_seat_soon(live, conn.group, conn.seat)  # the group's result may say it first
         send_console(live)
     receipt = change.receipt
     return {
