@@ -213,48 +213,81 @@ def optimal_group_policy(
         raise ValueError(f"continuation needs {rounds - 1} probabilities in [0, 1]")
     res, thr = study.resource, study.threshold
     belief = threshold_belief(study) if belief is None else belief
-    capacity, cap = res.capacity, study.seats * res.max_harvest
+    capacity = res.capacity
+    # A harvest beyond the stock is barred, so no group harvest above K is ever a candidate.
+    cap = min(study.seats * res.max_harvest, capacity)
     levels = np.arange(capacity + 1)
+    n = levels.size
     thresholds = np.asarray(belief.values, float)[:, None, None]
     weights = np.asarray(belief.weights, float)
+    classes = weights.size
     was_degraded = np.array([False, True])[None, :, None]
-    # Two outcomes of the flip draw: 0.0 flips whenever the rule allows, 1.0 never does.
-    next_regime_of, next_stock_of, chance = [], [], []
+    # Regrowth depends only on the remainder and the regime after it: one row per regime.
+    regrown = regrow(np.broadcast_to(levels, (2, n)), np.array([[False], [True]]), res.growth,
+                     capacity, res.degraded_growth_factor)
+    # Two outcomes of the flip draw: 0.0 flips whenever the rule allows, 1.0 never does. Each
+    # outcome is a flat index into value (class, regime after, regrown stock) per (class, regime, R).
+    outcomes = []
     for draw, p in ((0.0, thr.flip_probability), (1.0, 1.0 - thr.flip_probability)):
-        degraded_after, _, _ = next_regime(
-            was_degraded, levels[None, None, :], thresholds, thr.recovery_gap, thr.flip_probability, draw
-        )
-        degraded_after = np.broadcast_to(degraded_after, (weights.size, 2, levels.size))
-        next_regime_of.append(degraded_after.astype(np.int64))
-        next_stock_of.append(
-            regrow(np.broadcast_to(levels, degraded_after.shape), degraded_after, res.growth,
-                   capacity, res.degraded_growth_factor)
-        )
-        chance.append(p)
-    classes = np.arange(weights.size)[:, None, None]
-    regimes = np.arange(2)[None, :, None]
-    # Candidate remainders R = s - h for every stock s and harvest h; beyond the stock is barred.
-    harvests = np.arange(cap + 1)
-    remainder = levels[:, None] - harvests[None, :]
-    # Immediate take plus a bar (-inf) on harvests beyond the stock, computed once.
-    immediate = np.where(remainder >= 0, harvests[None, :], -np.inf)
-    remainder = np.maximum(remainder, 0)
-    value = np.zeros((weights.size, 2, levels.size))
-    policy = np.zeros((rounds, 2, levels.size), dtype=np.int64)
+        if p > 0:
+            degraded_after, _, _ = next_regime(
+                was_degraded, levels[None, None, :], thresholds, thr.recovery_gap, thr.flip_probability, draw
+            )
+            after = np.broadcast_to(degraded_after, (classes, 2, n)).astype(np.int64)
+            flat = (np.arange(classes)[:, None, None] * 2 + after) * n + regrown[after, levels]
+            outcomes.append((flat, p))
+    value = np.zeros((classes, 2, n))
+    future = np.empty_like(value)
+    gathered = np.empty_like(value)
+    policy = np.zeros((rounds, 2, n), dtype=np.int64)
+    # Score of harvest h at stock s is expected[s - h] + h - 1e-9 h, i.e. key[R] + (1 - 1e-9) s
+    # with R = s - h: the best harvest is the best remainder in the window s - cap <= R <= s.
+    # The hair's penalty per unit makes ties (common with integer stocks) go to the smaller
+    # harvest, i.e. the larger remainder. key is padded with cap barred (-inf) places on the left.
+    slope = levels * (1.0 - 1e-9)
+    padded = np.full((2, cap + n), -np.inf)
     for t in range(rounds - 1, -1, -1):
         weight = discount * survive[t] if t < rounds - 1 else 0.0
-        outcomes = zip(next_regime_of, next_stock_of, chance, strict=True)
-        future = weight * sum(p * value[classes, nd, ns] for nd, ns, p in outcomes if p > 0)
+        # future = weight * sum(p * value[next state]) in the order and rounding of the plain sum.
+        for i, (flat, p) in enumerate(outcomes):
+            # mode='clip' only spares numpy a buffered copy: every index is in range by construction.
+            np.take(value, flat, out=gathered if i else future, mode="clip")
+            if i:
+                gathered *= p
+                future += gathered
+            else:
+                future *= p
+        future *= weight
         expected = np.tensordot(weights, future, axes=1)  # (2, K+1), over the planner's belief
-        score = expected[:, remainder]
-        score += immediate
-        # A hair's penalty per unit makes ties (common with integer stocks) go to the smaller harvest.
-        score -= 1e-9 * harvests
-        take = np.argmax(score, axis=2)
+        np.subtract(expected, slope, out=padded[:, cap:])
+        _, where = _window_argmax(padded, cap + 1)
+        take = levels - (where - cap)
         policy[t] = take
         kept = levels[None, :] - take
-        value = take[None] + future[classes, regimes, kept[None]]
+        np.take(future.reshape(classes, 2 * n), (np.arange(2)[:, None] * n + kept).ravel(), axis=1,
+                out=gathered.reshape(classes, 2 * n), mode="clip")
+        np.add(gathered, take.astype(float), out=value)
     return HarvestPolicy(policy, np.tensordot(weights, value, axes=1), belief, discount)
+
+
+def _window_argmax(keys: NDArray[np.float64], width: int) -> tuple[NDArray[np.float64], NDArray[np.int64]]:
+    """Maximum of ``keys[..., i : i + width]`` for every ``i`` along the last axis, and its place.
+
+    Ties go to the later place. Sparse-table doubling: blocks of 1, 2, 4, ... places are merged
+    pairwise, then two overlapping blocks cover the width, in O(n log width) vectorised steps.
+    """
+    best = keys
+    place = np.broadcast_to(np.arange(keys.shape[-1]), keys.shape)
+    span = 1
+    while 2 * span <= width:
+        later = best[..., span:] >= best[..., :-span]
+        best = np.where(later, best[..., span:], best[..., :-span])
+        place = np.where(later, place[..., span:], place[..., :-span])
+        span *= 2
+    shift, size = width - span, best.shape[-1] - (width - span)
+    later = best[..., shift:] >= best[..., :size]
+    return (np.where(later, best[..., shift:], best[..., :size]),
+            np.where(later, place[..., shift:], place[..., :size]))
 
 
 def selfish_group_take(
