@@ -218,32 +218,38 @@ def optimal_group_policy(
     cap = min(study.seats * res.max_harvest, capacity)
     levels = np.arange(capacity + 1)
     n = levels.size
-    thresholds = np.asarray(belief.values, float)[:, None, None]
     weights = np.asarray(belief.weights, float)
     classes = weights.size
-    was_degraded = np.array([False, True])[None, :, None]
+    regimes = np.arange(2)[:, None]
+    # Tables are laid out (regime, stock, class): the gathers that follow the policy move whole
+    # rows of classes, and the expectation over the belief is one matrix-vector product.
+    thresholds = np.asarray(belief.values, float)[None, None, :]
+    was_degraded = np.array([False, True])[:, None, None]
     # Regrowth depends only on the remainder and the regime after it: one row per regime.
     regrown = regrow(np.broadcast_to(levels, (2, n)), np.array([[False], [True]]), res.growth,
                      capacity, res.degraded_growth_factor)
-    # Two outcomes of the flip draw: 0.0 flips whenever the rule allows, 1.0 never does. Each
-    # outcome is a flat index into value (class, regime after, regrown stock) per (class, regime, R).
-    # The index is base (good regime after) plus, where the regime after is degraded, the step
-    # to the degraded row and its regrown stock: integer arithmetic, cheaper than fancy indexing.
-    base = (np.arange(classes) * 2 * n)[:, None, None] + regrown[0]
-    to_degraded = n + regrown[1] - regrown[0]
+    # Two outcomes of the flip draw: 0.0 flips whenever the rule allows, 1.0 never does; the
+    # regime each leads to, per (regime, remainder R, class).
     draws = ((0.0, thr.flip_probability), (1.0, 1.0 - thr.flip_probability))
-    draws = [(draw, p) for draw, p in draws if p > 0]
-    # One allocation per kind: numpy asks Linux for huge pages on arrays of 4 MB and more, which
-    # makes first touch of these (class x regime x stock) tables several times cheaper.
-    flats = np.empty((len(draws), classes, 2, n), dtype=np.int64)
-    value, future, gathered = np.empty((3, classes, 2, n))
-    for (draw, _), flat in zip(draws, flats, strict=True):
-        degraded_after, _, _ = next_regime(
-            was_degraded, levels[None, None, :], thresholds, thr.recovery_gap, thr.flip_probability, draw
-        )
-        np.multiply(np.broadcast_to(degraded_after, flat.shape), to_degraded, out=flat)
-        flat += base
-    outcomes = [(flat, p) for flat, (_, p) in zip(flats, draws, strict=True)]
+    afters = [
+        np.broadcast_to(next_regime(was_degraded, levels[None, :, None], thresholds, thr.recovery_gap,
+                                    thr.flip_probability, draw)[0], (2, n, classes)).ravel()
+        for draw, p in draws if p > 0
+    ]
+    chances = [p for _, p in draws if p > 0]
+    # ``reached`` is laid out (regime after, R, class): the state after a draw is the same place
+    # in the table of the regime the draw leads to.
+    plane = n * classes
+    reach = np.multiply(afters[-1].reshape(2, plane), plane, dtype=np.int64)
+    reach += np.arange(plane)
+    # Where every draw leads to the same state (a degraded stock that does not recover, a good
+    # one left at or above T, a certain or impossible flip) the expectation over the draw is that
+    # state's value; only where the draw matters are both outcomes gathered and weighted.
+    matters = np.flatnonzero(afters[0] != afters[-1])
+    branches = [(after[matters] * plane + matters % plane, p)
+                for after, p in zip(afters, chances, strict=True)]
+    mixed, branch = np.empty((2, matters.size))
+    future, reached = np.empty((2, 2, n, classes))
     policy = np.zeros((rounds, 2, n), dtype=np.int64)
     # Score of harvest h at stock s is expected[s - h] + h - 1e-9 h, i.e. key[R] + (1 - 1e-9) s
     # with R = s - h: the best harvest is the best remainder in the window s - cap <= R <= s.
@@ -251,32 +257,44 @@ def optimal_group_policy(
     # harvest, i.e. the larger remainder. key is padded with cap barred (-inf) places on the left.
     slope = levels * (1.0 - 1e-9)
     padded = np.full((2, cap + n), -np.inf)
+    take = np.zeros((2, n), dtype=np.int64)
     for t in range(rounds - 1, -1, -1):
         weight = discount * survive[t] if t < rounds - 1 else 0.0
-        # future = weight * sum(p * value[next state]) in the order and rounding of the plain sum;
-        # nothing counts after the last round (or a sure stop), and value is not yet set there.
-        for i, (flat, p) in enumerate(outcomes if weight else ()):
-            # mode='clip' only spares numpy a buffered copy: every index is in range by construction.
-            np.take(value, flat, out=gathered if i else future, mode="clip")
-            if i:
-                gathered *= p
-                future += gathered
-            else:
-                future *= p
         if weight:
-            future *= weight
+            # Value of the next round's policy at every regrown stock: what it takes there plus
+            # what its own successor was worth (future of the round after, at the stock kept).
+            # mode='clip' only spares numpy a buffered copy: every index is in range.
+            taken_there = take[regimes, regrown]
+            np.take(future.reshape(2 * n, classes), (regimes * n + regrown - taken_there).ravel(), axis=0,
+                    out=reached.reshape(2 * n, classes), mode="clip")
+            reached += taken_there[:, :, None]
+            # future = weight * E[value of the next state] over the flip draw.
+            np.take(reached, reach, out=future.reshape(2, plane), mode="clip")
+            if matters.size:
+                for i, (at, p) in enumerate(branches):
+                    np.take(reached, at, out=branch if i else mixed, mode="clip")
+                    if i:
+                        branch *= p
+                        mixed += branch
+                    else:
+                        mixed *= p
+                np.put(future, matters, mixed, mode="clip")
+            if weight != 1.0:
+                future *= weight
         else:
+            # Nothing counts after the last round (or a sure stop).
             future.fill(0.0)
-        expected = np.tensordot(weights, future, axes=1)  # (2, K+1), over the planner's belief
+        expected = (future.reshape(2 * n, classes) @ weights).reshape(2, n)  # over the planner's belief
         np.subtract(expected, slope, out=padded[:, cap:])
         _, where = _window_argmax(padded, cap + 1)
         take = levels - (where - cap)
         policy[t] = take
-        kept = levels[None, :] - take
-        np.take(future.reshape(classes, 2 * n), (np.arange(2)[:, None] * n + kept).ravel(), axis=1,
-                out=gathered.reshape(classes, 2 * n), mode="clip")
-        np.add(gathered, take.astype(float), out=value)
-    return HarvestPolicy(policy, np.tensordot(weights, value, axes=1), belief, discount)
+    # The block's value: what the first round takes plus its future at the stock kept.
+    value = reached.reshape(2 * n, classes)
+    np.take(future.reshape(2 * n, classes), (regimes * n + levels - take).ravel(), axis=0,
+            out=value, mode="clip")
+    value += take.reshape(-1, 1)
+    return HarvestPolicy(policy, (value @ weights).reshape(2, n), belief, discount)
 
 
 def _window_argmax(keys: NDArray[np.float64], width: int) -> tuple[NDArray[np.float64], NDArray[np.int64]]:
