@@ -278,7 +278,7 @@ def optimal_group_policy(
                         mixed += branch
                     else:
                         mixed *= p
-                np.put(future, matters, mixed, mode="clip")
+                future.reshape(-1)[matters] = mixed
             if weight != 1.0:
                 future *= weight
         else:
