@@ -238,10 +238,11 @@ def optimal_group_policy(
     ]
     chances = [p for _, p in draws if p > 0]
     # ``reached`` is laid out (regime after, R, class): the state after a draw is the same place
-    # in the table of the regime the draw leads to.
+    # in the table of the regime the draw leads to. Under the last draw most places keep their
+    # regime; ``moves`` marks, per regime, where that draw leads to the other one.
     plane = n * classes
-    reach = np.multiply(afters[-1].reshape(2, plane), plane, dtype=np.int64)
-    reach += np.arange(plane)
+    moved = afters[-1].reshape(2, n, classes) != np.array([False, True])[:, None, None]
+    moves = [(d, where) for d, where in enumerate(moved) if where.any()]
     # Where every draw leads to the same state (a degraded stock that does not recover, a good
     # one left at or above T, a certain or impossible flip) the expectation over the draw is that
     # state's value; only where the draw matters are both outcomes gathered and weighted.
@@ -268,8 +269,11 @@ def optimal_group_policy(
             np.take(future.reshape(2 * n, classes), (regimes * n + regrown - taken_there).ravel(), axis=0,
                     out=reached.reshape(2 * n, classes), mode="clip")
             reached += taken_there[:, :, None]
-            # future = weight * E[value of the next state] over the flip draw.
-            np.take(reached, reach, out=future.reshape(2, plane), mode="clip")
+            # future = weight * E[value of the next state] over the flip draw: the value in the
+            # regime the last draw leads to, then the mixture where the draw matters.
+            future[...] = reached
+            for d, where in moves:
+                np.copyto(future[d], reached[1 - d], where=where)
             if matters.size:
                 for i, (at, p) in enumerate(branches):
                     np.take(reached, at, out=branch if i else mixed, mode="clip")
