@@ -242,7 +242,7 @@ def optimal_group_policy(
     # regime; ``moves`` marks, per regime, where that draw leads to the other one.
     plane = n * classes
     moved = afters[-1].reshape(2, n, classes) != np.array([False, True])[:, None, None]
-    moves = [(d, where) for d, where in enumerate(moved) if where.any()]
+    moves = [(d, there) for d, there in enumerate(moved) if there.any()]
     # Where every draw leads to the same state (a degraded stock that does not recover, a good
     # one left at or above T, a certain or impossible flip) the expectation over the draw is that
     # state's value; only where the draw matters are both outcomes gathered and weighted.
@@ -269,11 +269,9 @@ def optimal_group_policy(
             np.take(future.reshape(2 * n, classes), (regimes * n + regrown - taken_there).ravel(), axis=0,
                     out=reached.reshape(2 * n, classes), mode="clip")
             reached += taken_there[:, :, None]
-            # future = weight * E[value of the next state] over the flip draw: the value in the
-            # regime the last draw leads to, then the mixture where the draw matters.
-            future[...] = reached
-            for d, where in moves:
-                np.copyto(future[d], reached[1 - d], where=where)
+            # future = weight * E[value of the next state] over the flip draw, built in place:
+            # the mixture where the draw matters (read first), then the value in the other
+            # regime where the last draw moves there.
             if matters.size:
                 for i, (at, p) in enumerate(branches):
                     np.take(reached, at, out=branch if i else mixed, mode="clip")
@@ -282,7 +280,12 @@ def optimal_group_policy(
                         mixed += branch
                     else:
                         mixed *= p
-                future.reshape(-1)[matters] = mixed
+            source = reached if len(moves) < 2 else reached.copy()
+            for d, moved_there in moves:
+                np.copyto(reached[d], source[1 - d], where=moved_there)
+            if matters.size:
+                reached.reshape(-1)[matters] = mixed
+            future, reached = reached, future
             if weight != 1.0:
                 future *= weight
         else:
