@@ -265,10 +265,10 @@ def optimal_group_policy(
             # Value of the next round's policy at every regrown stock: what it takes there plus
             # what its own successor was worth (future of the round after, at the stock kept).
             # mode='clip' only spares numpy a buffered copy: every index is in range.
-            taken_there = take[regimes, regrown]
+            taken_there = take[regimes, regrown]  # whole units; added as floats below (cheaper)
             np.take(future.reshape(2 * n, classes), (regimes * n + regrown - taken_there).ravel(), axis=0,
                     out=reached.reshape(2 * n, classes), mode="clip")
-            reached += taken_there[:, :, None]
+            reached += taken_there[:, :, None].astype(float)
             # future = weight * E[value of the next state] over the flip draw, built in place:
             # the mixture where the draw matters (read first), then the value in the other
             # regime where the last draw moves there.
