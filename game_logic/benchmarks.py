@@ -213,48 +213,115 @@ def optimal_group_policy(
         raise ValueError(f"continuation needs {rounds - 1} probabilities in [0, 1]")
     res, thr = study.resource, study.threshold
     belief = threshold_belief(study) if belief is None else belief
-    capacity, cap = res.capacity, study.seats * res.max_harvest
+    capacity = res.capacity
+    # A harvest beyond the stock is barred, so no group harvest above K is ever a candidate.
+    cap = min(study.seats * res.max_harvest, capacity)
     levels = np.arange(capacity + 1)
-    thresholds = np.asarray(belief.values, float)[:, None, None]
+    n = levels.size
     weights = np.asarray(belief.weights, float)
-    was_degraded = np.array([False, True])[None, :, None]
-    # Two outcomes of the flip draw: 0.0 flips whenever the rule allows, 1.0 never does.
-    next_regime_of, next_stock_of, chance = [], [], []
-    for draw, p in ((0.0, thr.flip_probability), (1.0, 1.0 - thr.flip_probability)):
-        degraded_after, _, _ = next_regime(
-            was_degraded, levels[None, None, :], thresholds, thr.recovery_gap, thr.flip_probability, draw
-        )
-        degraded_after = np.broadcast_to(degraded_after, (weights.size, 2, levels.size))
-        next_regime_of.append(degraded_after.astype(np.int64))
-        next_stock_of.append(
-            regrow(np.broadcast_to(levels, degraded_after.shape), degraded_after, res.growth,
-                   capacity, res.degraded_growth_factor)
-        )
-        chance.append(p)
-    classes = np.arange(weights.size)[:, None, None]
-    regimes = np.arange(2)[None, :, None]
-    # Candidate remainders R = s - h for every stock s and harvest h; beyond the stock is barred.
-    harvests = np.arange(cap + 1)
-    remainder = levels[:, None] - harvests[None, :]
-    # Immediate take plus a bar (-inf) on harvests beyond the stock, computed once.
-    immediate = np.where(remainder >= 0, harvests[None, :], -np.inf)
-    remainder = np.maximum(remainder, 0)
-    value = np.zeros((weights.size, 2, levels.size))
-    policy = np.zeros((rounds, 2, levels.size), dtype=np.int64)
+    classes = weights.size
+    regimes = np.arange(2)[:, None]
+    # Tables are laid out (regime, stock, class): the gathers that follow the policy move whole
+    # rows of classes, and the expectation over the belief is one matrix-vector product.
+    thresholds = np.asarray(belief.values, float)[None, None, :]
+    was_degraded = np.array([False, True])[:, None, None]
+    # Regrowth depends only on the remainder and the regime after it: one row per regime.
+    regrown = regrow(np.broadcast_to(levels, (2, n)), np.array([[False], [True]]), res.growth,
+                     capacity, res.degraded_growth_factor)
+    # Two outcomes of the flip draw: 0.0 flips whenever the rule allows, 1.0 never does; the
+    # regime each leads to, per (regime, remainder R, class).
+    draws = ((0.0, thr.flip_probability), (1.0, 1.0 - thr.flip_probability))
+    afters = [
+        np.broadcast_to(next_regime(was_degraded, levels[None, :, None], thresholds, thr.recovery_gap,
+                                    thr.flip_probability, draw)[0], (2, n, classes)).ravel()
+        for draw, p in draws if p > 0
+    ]
+    chances = [p for _, p in draws if p > 0]
+    # ``reached`` is laid out (regime after, R, class): the state after a draw is the same place
+    # in the table of the regime the draw leads to. Under the last draw most places keep their
+    # regime; ``moves`` marks, per regime, where that draw leads to the other one.
+    plane = n * classes
+    moved = afters[-1].reshape(2, n, classes) != np.array([False, True])[:, None, None]
+    moves = [(d, there) for d, there in enumerate(moved) if there.any()]
+    # Where every draw leads to the same state (a degraded stock that does not recover, a good
+    # one left at or above T, a certain or impossible flip) the expectation over the draw is that
+    # state's value; only where the draw matters are both outcomes gathered and weighted.
+    matters = np.flatnonzero(afters[0] != afters[-1])
+    branches = [(after[matters] * plane + matters % plane, p)
+                for after, p in zip(afters, chances, strict=True)]
+    mixed, branch = np.empty((2, matters.size))
+    future, reached = np.empty((2, 2, n, classes))
+    policy = np.zeros((rounds, 2, n), dtype=np.int64)
+    # Score of harvest h at stock s is expected[s - h] + h - 1e-9 h, i.e. key[R] + (1 - 1e-9) s
+    # with R = s - h: the best harvest is the best remainder in the window s - cap <= R <= s.
+    # The hair's penalty per unit makes ties (common with integer stocks) go to the smaller
+    # harvest, i.e. the larger remainder. key is padded with cap barred (-inf) places on the left.
+    slope = levels * (1.0 - 1e-9)
+    padded = np.full((2, cap + n), -np.inf)
+    take = np.zeros((2, n), dtype=np.int64)
     for t in range(rounds - 1, -1, -1):
         weight = discount * survive[t] if t < rounds - 1 else 0.0
-        outcomes = zip(next_regime_of, next_stock_of, chance, strict=True)
-        future = weight * sum(p * value[classes, nd, ns] for nd, ns, p in outcomes if p > 0)
-        expected = np.tensordot(weights, future, axes=1)  # (2, K+1), over the planner's belief
-        score = expected[:, remainder]
-        score += immediate
-        # A hair's penalty per unit makes ties (common with integer stocks) go to the smaller harvest.
-        score -= 1e-9 * harvests
-        take = np.argmax(score, axis=2)
+        if weight:
+            # Value of the next round's policy at every regrown stock: what it takes there plus
+            # what its own successor was worth (future of the round after, at the stock kept).
+            # mode='clip' only spares numpy a buffered copy: every index is in range.
+            taken_there = take[regimes, regrown]  # whole units; added as floats below (cheaper)
+            np.take(future.reshape(2 * n, classes), (regimes * n + regrown - taken_there).ravel(), axis=0,
+                    out=reached.reshape(2 * n, classes), mode="clip")
+            reached += taken_there[:, :, None].astype(float)
+            # future = weight * E[value of the next state] over the flip draw, built in place:
+            # the mixture where the draw matters (read first), then the value in the other
+            # regime where the last draw moves there.
+            if matters.size:
+                for i, (at, p) in enumerate(branches):
+                    np.take(reached, at, out=branch if i else mixed, mode="clip")
+                    if i:
+                        branch *= p
+                        mixed += branch
+                    else:
+                        mixed *= p
+            source = reached if len(moves) < 2 else reached.copy()
+            for d, moved_there in moves:
+                np.copyto(reached[d], source[1 - d], where=moved_there)
+            if matters.size:
+                reached.reshape(-1)[matters] = mixed
+            future, reached = reached, future
+            if weight != 1.0:
+                future *= weight
+        else:
+            # Nothing counts after the last round (or a sure stop).
+            future.fill(0.0)
+        expected = (future.reshape(2 * n, classes) @ weights).reshape(2, n)  # over the planner's belief
+        np.subtract(expected, slope, out=padded[:, cap:])
+        _, where = _window_argmax(padded, cap + 1)
+        take = levels - (where - cap)
         policy[t] = take
-        kept = levels[None, :] - take
-        value = take[None] + future[classes, regimes, kept[None]]
-    return HarvestPolicy(policy, np.tensordot(weights, value, axes=1), belief, discount)
+    # The block's value: what the first round takes plus its future at the stock kept.
+    value = reached.reshape(2 * n, classes)
+    np.take(future.reshape(2 * n, classes), (regimes * n + levels - take).ravel(), axis=0,
+            out=value, mode="clip")
+    value += take.reshape(-1, 1)
+    return HarvestPolicy(policy, (value @ weights).reshape(2, n), belief, discount)
+
+
+def _window_argmax(keys: NDArray[np.float64], width: int) -> tuple[NDArray[np.float64], NDArray[np.int64]]:
+    """Maximum of ``keys[..., i : i + width]`` for every ``i`` along the last axis, and its place.
+
+    Ties go to the later place. Sparse-table doubling: blocks of 1, 2, 4, ... places are merged
+    pairwise, then two overlapping blocks cover the width, in O(n log width) vectorised steps.
+    """
+    best = keys
+    place = np.broadcast_to(np.arange(keys.shape[-1]), keys.shape)
+    span = 1
+    while 2 * span <= width:
+        later = best[..., span:] >= best[..., :-span]
+        best = np.where(later, best[..., span:], best[..., :-span])
+        place = np.where(later, place[..., span:], place[..., :-span])
+        span *= 2
+    shift, size = width - span, best.shape[-1] - (width - span)
+    later = best[..., shift:] >= best[..., :size]
+    return (np.where(later, best[..., shift:], best[..., :size]),
+            np.where(later, place[..., shift:], place[..., :size]))
 
 
 def selfish_group_take(
