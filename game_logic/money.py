@@ -17,6 +17,7 @@ from __future__ import annotations
 from collections.abc import Iterable, Sequence
 from dataclasses import dataclass
 from decimal import Decimal, Inexact, localcontext
+from functools import lru_cache
 
 from .study import PaymentSpec
 
@@ -30,6 +31,8 @@ class Earnings:
     cash: Decimal  # show-up fee included, rounded up to the rounding step
 
 
+# Asked for every seat of every console state and phone snapshot; the answer never changes.
+@lru_cache(maxsize=65536, typed=True)  # typed: True is refused, never served as 1
 def earnings(units_taken: int, spec: PaymentSpec) -> Earnings:
     """Points and cash for ``units_taken`` whole units (one round's, or a whole session's).
 

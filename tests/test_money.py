@@ -76,6 +76,9 @@ def test_whole_units_are_required():
         earnings(-1, PaymentSpec())
     with pytest.raises(ValueError, match="whole number of 0 or more"):
         earnings(2.5, PaymentSpec())
+    assert earnings(1, PaymentSpec()).units == 1  # remembered now; True must still be refused
+    with pytest.raises(ValueError, match="whole number of 0 or more"):
+        earnings(True, PaymentSpec())
 
 
 def test_exact_text_never_shows_binary_float_noise():

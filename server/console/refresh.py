@@ -15,7 +15,7 @@ import threading
 import time
 from collections.abc import Callable
 
-REFRESH_INTERVAL_SECONDS = 0.25  # four console states a second at most; a person reads slower
+REFRESH_INTERVAL_SECONDS = 0.5  # two console states a second at most; a person reads slower
 
 
 class CoalescedRefresh:
