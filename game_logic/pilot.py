@@ -2,10 +2,11 @@
 
 ``play`` is the one simulation loop: blocks start through ``rounds.start_block`` and
 ``rounds.next_block``, every round is resolved by ``rounds.advance`` (the function
-``resolve`` calls), what a seat sees is built from ``treatments.danger_info`` (the
-phone's gate) and its choice comes from a behaviour model (``game_logic.behaviour``)
-fed by its group's own generator (``seeding.behaviour_rng``). The pilot records every
-round as a ``RoundOutcome``; the power analysis and the budget keep only summaries.
+``resolve`` calls), what a seat sees is built from the phone's gate (``treatments.danger_info``,
+as columns over groups by ``treatments.danger_columns``) and its choice comes from a
+behaviour model (``game_logic.behaviour``) fed by its group's own generator
+(``seeding.behaviour_rng``, drawn in bulk by ``seeding.BulkGenerators``). The pilot records
+every round as a ``RoundOutcome``; the power analysis and the budget keep only summaries.
 
 With ``live_draws`` (the pilot) each round's flip and stop draws come from
 ``seeding.round_rng``, exactly as in a live session, so pilot group g with seed s is

@@ -24,8 +24,6 @@ from .study import Study
 
 # Wide enough for every band name: numpy would cut a longer one short without a word.
 BAND_DTYPE = f"<U{max(len(b) for b in BANDS)}"
-# Treatments whose ``danger_info`` is the same for every group of a block (no threshold, no path).
-GROUP_INDEPENDENT = frozenset({"none", "vague", "range"})
 
 
 def danger_info(study: Study, state: GroupState) -> dict[str, Any]:
