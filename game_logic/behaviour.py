@@ -40,15 +40,16 @@ class Danger:
     """What the treatment says about the danger level, one entry per row (group).
 
     ``kind`` is the treatment's kind (``danger_info``'s ``kind``); numbers are NaN
-    where the treatment does not give them; ``band`` is the health signal's band.
+    where the treatment does not give them; ``band`` is the health signal's band ("" elsewhere).
+    Words are numpy string arrays: comparing them is far cheaper than comparing objects.
     """
 
-    kind: NDArray[np.object_]
+    kind: NDArray[np.str_]
     level: NDArray[np.float64]
     low: NDArray[np.float64]
     high: NDArray[np.float64]
     flip_probability: NDArray[np.float64]
-    band: NDArray[np.object_]
+    band: NDArray[np.str_]
 
     @classmethod
     def from_infos(cls, infos: Sequence[Mapping[str, Any]]) -> Danger:
@@ -57,10 +58,10 @@ class Danger:
             return np.array([float(i.get(key, np.nan)) for i in infos], dtype=float)
 
         return cls(
-            kind=np.array([i["kind"] for i in infos], dtype=object),
+            kind=np.array([i["kind"] for i in infos], dtype=str),
             level=number("level"), low=number("low"), high=number("high"),
             flip_probability=number("flip_probability"),
-            band=np.array([i.get("band", "") for i in infos], dtype=object),
+            band=np.array([i.get("band", "") for i in infos], dtype=str),
         )
 
     def take(self, rows: NDArray[np.int64]) -> Danger:
@@ -159,6 +160,8 @@ class Model:
     bounds: ClassVar[dict[str, tuple[float, float]]] = {}
     # Whether choices depend on the health signal's band (costly to compute for every round).
     reads_signal: ClassVar[bool] = False
+    # Whether ``ask`` reads its uniforms (the pilot need not draw them for a fixed choice).
+    uses_uniforms: ClassVar[bool] = True
 
     def ask(self, obs: Observation, u: NDArray[np.float64]) -> NDArray[np.int64]:
         raise NotImplementedError
@@ -183,6 +186,7 @@ class Selfish(Model):
     """Myopic best response: a round's points rise with the units taken, so ask the cap."""
 
     name: ClassVar[str] = "selfish"
+    uses_uniforms: ClassVar[bool] = False
 
     def ask(self, obs, u):
         return np.full(u.shape, self.setting.cap, dtype=np.int64)
@@ -196,6 +200,7 @@ class SustainableShare(Model):
     """Everyone asks floor(MSY / seats): the group never takes more than the sustainable yield."""
 
     name: ClassVar[str] = "sustainable"
+    uses_uniforms: ClassVar[bool] = False
 
     def ask(self, obs, u):
         return np.full(u.shape, self.setting.share, dtype=np.int64)

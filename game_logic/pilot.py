@@ -2,10 +2,11 @@
 
 ``play`` is the one simulation loop: blocks start through ``rounds.start_block`` and
 ``rounds.next_block``, every round is resolved by ``rounds.advance`` (the function
-``resolve`` calls), what a seat sees is built from ``treatments.danger_info`` (the
-phone's gate) and its choice comes from a behaviour model (``game_logic.behaviour``)
-fed by its group's own generator (``seeding.behaviour_rng``). The pilot records every
-round as a ``RoundOutcome``; the power analysis and the budget keep only summaries.
+``resolve`` calls), what a seat sees is built from the phone's gate (``treatments.danger_info``,
+as columns over groups by ``treatments.danger_columns``) and its choice comes from a
+behaviour model (``game_logic.behaviour``) fed by its group's own generator
+(``seeding.behaviour_rng``, drawn in bulk by ``seeding.BulkGenerators``). The pilot records
+every round as a ``RoundOutcome``; the power analysis and the budget keep only summaries.
 
 With ``live_draws`` (the pilot) each round's flip and stop draws come from
 ``seeding.round_rng``, exactly as in a live session, so pilot group g with seed s is
@@ -17,16 +18,16 @@ per group and block instead of one per round.
 from __future__ import annotations
 
 from collections.abc import Callable, Sequence
-from dataclasses import dataclass, replace
+from dataclasses import dataclass, fields, replace
 
 import numpy as np
 from numpy.typing import NDArray
 
 from .behaviour import Danger, Model, Observation, make_model
 from .rounds import Advance, GroupState, Regime, RoundOutcome, advance, group_thresholds
-from .seeding import BEHAVIOUR_STREAM, bulk_round_draws, bulk_uniforms
+from .seeding import BEHAVIOUR_STREAM, BlockRoundDraws, BulkGenerators
 from .study import Study
-from .treatments import GROUP_INDEPENDENT, danger_info
+from .treatments import danger_columns, danger_info
 
 
 @dataclass(frozen=True)
@@ -50,6 +51,11 @@ def _as_model(study: Study, model: Model | str) -> Model:
     return make_model(model, study) if isinstance(model, str) else model
 
 
+# A round is played this many groups at a time: numpy's temporaries then stay small enough to
+# be reused from the heap and the CPU cache instead of being fetched afresh from the system.
+_SLICE = 16384
+
+
 def play(
     study: Study,
     model: Model | str,
@@ -63,92 +69,116 @@ def play(
     ids = np.asarray(groups, dtype=np.int64)
     if ids.ndim != 1 or ids.size == 0:
         raise ValueError("groups must list at least one group number")
-    seats = study.seats
-    stock = np.full(ids.size, study.resource.initial_stock, dtype=np.int64)
-    degraded = np.zeros(ids.size, dtype=bool)
+    seats, n = study.seats, ids.size
+    stock = np.full(n, study.resource.initial_stock, dtype=np.int64)
+    degraded = np.zeros(n, dtype=bool)
     for b, block in enumerate(study.blocks):
         if b > 0 and block.reset_stock:  # the same carry rule as ``rounds.start_block``
             stock[:] = study.resource.initial_stock
             degraded[:] = False
         threshold = group_thresholds(study, seed, ids, b)
-        states = _block_states(study, ids, b, stock, degraded, threshold)
-        infos = _danger_infos(study, states)
-        # The band is recomputed each round only for models that read it (it is costly).
-        signal_rows = [i for i, info in enumerate(infos) if info["kind"] == "signal" and model.reads_signal]
-        paths = {i: list(states[i].stock_path) for i in signal_rows}
-        # Other treatments say the same thing all block long: their arrays are built once.
-        static = None if signal_rows else Danger.from_infos(infos)
-        draws_per_group = block.rounds * seats + (0 if live_draws else 2 * block.rounds)
-        behaviour_draws = bulk_uniforms([seed, BEHAVIOUR_STREAM, ids, b], ids.size, draws_per_group)
-        uniforms = behaviour_draws[:, :block.rounds * seats].reshape(ids.size, block.rounds, seats)
-        if not live_draws:  # the group's own generator after its seats' uniforms
-            own_draws = behaviour_draws[:, block.rounds * seats:].reshape(ids.size, block.rounds, 2)
-        own_last = np.full((ids.size, seats), np.nan)
-        group_last = np.full((ids.size, 1), np.nan)
-        played = np.zeros(ids.size, dtype=np.int64)
-        active = np.arange(ids.size)
+        danger = Danger(**danger_columns(study, b, ids, threshold, stock))
+        signal = _SignalPaths(study, model, b, ids, stock, degraded, threshold, danger, block.rounds)
+        seat_draws = block.rounds * seats
+        # Each group's behaviour generator (``seeding.behaviour_rng``): its seats' uniforms in
+        # play order, drawn round by round; without live draws, the round's own two draws follow
+        # all of them, so everything is drawn up front as (draw, group).
+        behaviour = upfront = None
+        if model.uses_uniforms or not live_draws:
+            behaviour = BulkGenerators.of_key([seed, BEHAVIOUR_STREAM, ids, b], n)
+        if not live_draws:
+            upfront = behaviour.random(seat_draws + 2 * block.rounds)
+        round_draws = BlockRoundDraws(seed, ids, b) if live_draws else None
+        own_last = np.full((n, seats), np.nan)
+        group_last = np.full((n, 1), np.nan)
+        active = np.arange(n)
         for k in range(1, block.rounds + 1):
-            for i in signal_rows:
-                if played[i] == k - 1:  # still playing: the signal reads the path so far
-                    infos[i] = danger_info(study, replace(states[i], stock_path=tuple(paths[i])))
-            danger = static.take(active) if static else Danger.from_infos([infos[i] for i in active])
-            obs = Observation(round=np.full(active.size, k), stock=stock[active],
-                              own_last=own_last[active], group_last=group_last[active], danger=danger)
-            asked = model.ask(obs, uniforms[active, k - 1])
-            if live_draws:  # exactly ``round_draws(round_rng(seed, g, b, k))`` of every group
-                draws = bulk_round_draws(seed, ids[active], b, k)
-            else:
-                draws = own_draws[active, k - 1]
-            result = advance(study, b, np.full(active.size, k), stock[active], degraded[active],
-                             threshold[active], asked, draws[:, 0], draws[:, 1])
-            on_round(RoundStep(b, k, active, ids[active], stock[active], degraded[active],
-                               threshold[active], asked, draws[:, 0], draws[:, 1], result))
-            stock[active] = result.stock_after
-            degraded[active] = result.degraded_after
-            own_last[active] = result.taken
-            group_last[active, 0] = result.taken.sum(axis=1)
-            played[active] = k
-            for i, after in zip(active, result.stock_after, strict=True):
-                if i in paths:
-                    paths[i].append(int(after))
+            signal.update_bands(active, k)
+            everyone = active.size == n  # nobody has finished: slices of the arrays serve
+            parts = []
+            for start in range(0, active.size, _SLICE):
+                stop = min(active.size, start + _SLICE)
+                rows = slice(start, stop) if everyone else active[start:stop]
+                stock_before, degraded_before = stock[rows].copy(), degraded[rows].copy()
+                obs = Observation(round=np.full(stop - start, k), stock=stock_before,
+                                  own_last=own_last[rows], group_last=group_last[rows],
+                                  danger=danger.take(rows))
+                if upfront is not None:
+                    u = upfront[(k - 1) * seats:k * seats, rows].T
+                elif behaviour is not None:
+                    u = behaviour.random(seats, rows).T
+                else:  # the model asks the same whatever it draws
+                    u = np.zeros((stop - start, seats))
+                asked = model.ask(obs, u)
+                if round_draws is not None:  # exactly ``round_draws(round_rng(seed, g, b, k))``
+                    flip_draw, continue_draw = round_draws.draws(rows, k)
+                else:
+                    flip_draw = upfront[seat_draws + 2 * (k - 1), rows]
+                    continue_draw = upfront[seat_draws + 2 * (k - 1) + 1, rows]
+                result = advance(study, b, obs.round, stock_before, degraded_before, threshold[rows], asked,
+                                 flip_draw, continue_draw)
+                stock[rows] = result.stock_after
+                degraded[rows] = result.degraded_after
+                own_last[rows] = result.taken
+                group_last[rows, 0] = stock_before - result.remaining  # the group's total taken
+                parts.append((stock_before, degraded_before, threshold[rows], asked, flip_draw,
+                              continue_draw, result))
+            stock_before, degraded_before, threshold_now, asked, flip_draw, continue_draw = (
+                _joined([part[i] for part in parts]) for i in range(6))
+            result = Advance(*(_joined([getattr(part[6], f.name) for part in parts])
+                               for f in fields(Advance)))
+            on_round(RoundStep(b, k, active, ids[active], stock_before, degraded_before, threshold_now,
+                               asked, flip_draw, continue_draw, result))
+            signal.record(active, k, result.stock_after)
             active = active[~result.block_over]
             if active.size == 0:
                 break
 
 
-def _block_states(study: Study, ids, block: int, stock, degraded, threshold) -> list[GroupState | None]:
-    """Each group's state at the start of ``block``, built only where the treatment reads it.
+def _joined(arrays: list[NDArray]) -> NDArray:
+    return arrays[0] if len(arrays) == 1 else np.concatenate(arrays)
 
-    Treatments whose message is the same for every group (``treatments.GROUP_INDEPENDENT``)
-    get one state per block for the first such group; the others (exact, risk, signal) one per group.
+
+class _SignalPaths:
+    """The health signal's band of the ``signal`` groups of one block, read anew every round.
+
+    Only for models that read the band (it is costly): each such group's stock path is
+    kept and its band recomputed through ``danger_info``, the phone's own rule, while the
+    group plays. Other models keep the band the block started with.
     """
-    spec = study.blocks[block]
-    states: list[GroupState | None] = [None] * ids.size
-    shared: dict[str, GroupState] = {}
-    for i, g in enumerate(ids.tolist()):
-        treatment = spec.treatment_for(g)
-        if treatment in GROUP_INDEPENDENT and treatment in shared:
-            states[i] = shared[treatment]
-            continue
-        t = threshold[i]
-        states[i] = GroupState(group=g, block=block, round=0, stock=int(stock[i]),
-                               regime=Regime.DEGRADED if degraded[i] else Regime.GOOD,
-                               threshold=None if np.isnan(t) else float(t), stock_path=(int(stock[i]),))
-        if treatment in GROUP_INDEPENDENT:
-            shared[treatment] = states[i]
-    return states
 
+    def __init__(self, study: Study, model: Model, block: int, ids, stock, degraded, threshold,
+                 danger: Danger, rounds: int) -> None:
+        self.study, self.band = study, danger.band
+        self.rows = np.flatnonzero(danger.kind == "signal") if model.reads_signal else np.empty(0, np.int64)
+        self.where = np.full(ids.size, -1)  # row -> position among the signal rows
+        self.where[self.rows] = np.arange(self.rows.size)
+        self.paths = np.zeros((self.rows.size, rounds + 1), dtype=np.int64)
+        self.paths[:, 0] = stock[self.rows]
+        self.states = [
+            GroupState(group=int(ids[i]), block=block, round=0, stock=int(stock[i]),
+                       regime=Regime.DEGRADED if degraded[i] else Regime.GOOD,
+                       threshold=None if np.isnan(threshold[i]) else float(threshold[i]),
+                       stock_path=(int(stock[i]),))
+            for i in self.rows.tolist()
+        ]
 
-def _danger_infos(study: Study, states: list[GroupState]) -> list[dict]:
-    """``danger_info`` of every state, computed once per distinct state object."""
-    seen: dict[int, dict] = {}
-    out = []
-    for state in states:
-        key = id(state)
-        if key not in seen:
-            seen[key] = danger_info(study, state)
-        out.append(seen[key])
-    return out
+    def update_bands(self, active, k: int) -> None:
+        """Before round ``k``: the band of every signal group still playing, from its path so far."""
+        if not self.rows.size:
+            return
+        for row, j in zip(active.tolist(), self.where[active].tolist(), strict=True):
+            if j >= 0:
+                state = replace(self.states[j], stock_path=tuple(self.paths[j, :k].tolist()))
+                self.band[row] = danger_info(self.study, state)["band"]
+
+    def record(self, active, k: int, stock_after) -> None:
+        """After round ``k``: the stock each signal group ends it with joins its path."""
+        if not self.rows.size:
+            return
+        j = self.where[active]
+        mine = j >= 0
+        self.paths[j[mine], k] = stock_after[mine]
 
 
 @dataclass(frozen=True)

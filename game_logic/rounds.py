@@ -20,7 +20,7 @@ import numpy as np
 from numpy.typing import NDArray
 
 from .errors import InvalidHarvest, RoundClosed
-from .resource import draw_threshold, draw_thresholds, next_regime, ration, regrow
+from .resource import draw_threshold, draw_thresholds, next_regime, ration, regrow, row_sums
 from .seeding import bulk_threshold_uniforms, threshold_rng
 from .study import Study
 
@@ -123,6 +123,10 @@ def check_block_open(state: GroupState) -> None:
                           "wait for the next block")
 
 
+# Why a block ended, by ``advance``'s code (0: it goes on).
+END_REASONS = np.array([None, "random stop", "last round", "exhausted"], dtype=object)
+
+
 def advance(
     study: Study,
     block: int,
@@ -141,7 +145,7 @@ def advance(
     """
     res, thr, end = study.resource, study.threshold, study.end
     taken = ration(asked, stock)
-    remaining = stock - taken.sum(axis=1)
+    remaining = stock - row_sums(taken)
     degraded_after, crossed, recovered = next_regime(
         degraded, remaining, threshold, thr.recovery_gap, thr.flip_probability, flip_draw
     )
@@ -149,13 +153,14 @@ def advance(
         remaining, degraded_after, res.growth, res.capacity, res.degraded_growth_factor
     )
     length = study.blocks[block].rounds
-    reason = np.full(stock.shape, None, dtype=object)
+    # Codes into END_REASONS, a later rule overriding an earlier one (exhaustion wins).
+    code = np.zeros(stock.shape, dtype=np.int8)
     if end.rule == "random":
         stops = (round_number >= end.min_rounds) & (continue_draw >= end.continuation_probability)
-        reason[stops] = "random stop"
-    reason[round_number >= length] = "last round"
+        code[stops] = 1
+    code[round_number >= length] = 2
     if end.stop_when_exhausted:
-        reason[stock_after <= 0] = "exhausted"
+        code[stock_after <= 0] = 3
     return Advance(
         taken=taken,
         remaining=remaining,
@@ -163,8 +168,8 @@ def advance(
         degraded_after=degraded_after,
         crossed=crossed,
         recovered=recovered,
-        block_over=reason != None,  # noqa: E711 - elementwise on an object array
-        end_reason=reason,
+        block_over=code > 0,
+        end_reason=END_REASONS[code],
     )
 
 

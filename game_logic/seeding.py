@@ -5,6 +5,8 @@ group, block, round) through numpy's ``SeedSequence``. Replaying a round after a
 crash, or in a different order, therefore gives the same draws.
 """
 
+from __future__ import annotations
+
 import numpy as np
 from numpy.typing import NDArray
 
@@ -95,59 +97,177 @@ def _key_words(key: list) -> list:
     return words
 
 
-def _seed_words(key: list, rows: int) -> list:
-    """The four 64-bit words ``SeedSequence(key).generate_state(4, uint64)`` for every row."""
-    entropy = _key_words(key)
+def _hashmix(value, const: int):
+    """SeedSequence's hashmix of one word (scalar or array); returns it and the next hash constant."""
+    value = value ^ np.uint32(const)
+    const = (const * _MULT_A) & 0xFFFFFFFF
+    value = value * np.uint32(const)
+    return value ^ (value >> np.uint32(16)), const
+
+
+def _mix(x, y):
+    result = np.uint32(_MIX_MULT_L) * x - np.uint32(_MIX_MULT_R) * y
+    return result ^ (result >> np.uint32(16))
+
+
+def _mix_entropy(words: list) -> tuple[list, int]:
+    """SeedSequence's ``mix_entropy``: the pool (scalars, or arrays over rows) and the hash constant.
+
+    The constant advances with every hashmix whatever the words hold, so a pool can take
+    further words later (``_absorb``) exactly as if they had been in ``words``.
+    """
     const = _INIT_A
+    pool = []
+    for i in range(_POOL_SIZE):
+        value, const = _hashmix(words[i] if i < len(words) else np.uint32(0), const)
+        pool.append(value)
+    for src in range(_POOL_SIZE):
+        for dst in range(_POOL_SIZE):
+            if src != dst:
+                value, const = _hashmix(pool[src], const)
+                pool[dst] = _mix(pool[dst], value)
+    for word in words[_POOL_SIZE:]:
+        pool, const = _absorb(pool, const, word)
+    return pool, const
 
-    def hashmix(value):
-        nonlocal const
-        value = value ^ np.uint32(const)
-        const = (const * _MULT_A) & 0xFFFFFFFF
+
+def _absorb(pool: list, const: int, word) -> tuple[list, int]:
+    """Mix one entropy word past the pool's size into every pool word (SeedSequence's last loop)."""
+    pool = list(pool)
+    for dst in range(_POOL_SIZE):
+        value, const = _hashmix(word, const)
+        pool[dst] = _mix(pool[dst], value)
+    return pool, const
+
+
+def _generate_state(pool: list, rows: int) -> list:
+    """The four 64-bit words ``SeedSequence.generate_state(4, uint64)`` of every row, from its pool."""
+    state = np.empty((rows, 8), np.uint32)
+    const = _INIT_B
+    for i in range(8):
+        value = pool[i % _POOL_SIZE] ^ np.uint32(const)
+        const = (const * _MULT_B) & 0xFFFFFFFF
         value = value * np.uint32(const)
-        return value ^ (value >> np.uint32(16))
-
-    def mix(x, y):
-        result = np.uint32(_MIX_MULT_L) * x - np.uint32(_MIX_MULT_R) * y
-        return result ^ (result >> np.uint32(16))
-
-    with np.errstate(over="ignore"):
-        pool = [hashmix(entropy[i] if i < len(entropy) else np.uint32(0)) for i in range(_POOL_SIZE)]
-        for src in range(_POOL_SIZE):
-            for dst in range(_POOL_SIZE):
-                if src != dst:
-                    pool[dst] = mix(pool[dst], hashmix(pool[src]))
-        for src in range(_POOL_SIZE, len(entropy)):
-            for dst in range(_POOL_SIZE):
-                pool[dst] = mix(pool[dst], hashmix(entropy[src]))
-        state = np.empty((rows, 8), np.uint32)
-        const = _INIT_B
-        for i in range(8):
-            value = pool[i % _POOL_SIZE] ^ np.uint32(const)
-            const = (const * _MULT_B) & 0xFFFFFFFF
-            value = value * np.uint32(const)
-            state[:, i] = value ^ (value >> np.uint32(16))
+        state[:, i] = value ^ (value >> np.uint32(16))
     words = state.view("<u8")
     return [words[:, i] for i in range(4)]
 
 
-def _high_product(a, b_lo, b_hi):
-    """High 64 bits of the 128-bit product of uint64 ``a`` and the constant split as (b_lo, b_hi)."""
-    a_lo, a_hi = a & _LOW32, a >> _S32
-    low_low = a_lo * b_lo
-    high_low = a_hi * b_lo
-    cross = (low_low >> _S32) + (high_low & _LOW32) + a_lo * b_hi
-    return a_hi * b_hi + (high_low >> _S32) + (cross >> _S32)
+def _seed_words(key: list, rows: int) -> list:
+    """The four 64-bit words ``SeedSequence(key).generate_state(4, uint64)`` for every row."""
+    with np.errstate(over="ignore"):
+        return _generate_state(_mix_entropy(_key_words(key))[0], rows)
 
 
-def _pcg_step(hi, lo, inc_hi, inc_lo):
-    """One PCG64 step, state * multiplier + increment modulo 2**128, on (high, low) uint64 halves."""
-    m_lo, m_hi = np.uint64(_PCG_MULT_LO), np.uint64(_PCG_MULT_HI)
-    b_lo, b_hi = m_lo & _LOW32, m_lo >> _S32
-    product_lo = lo * m_lo
-    new_lo = product_lo + inc_lo
-    new_hi = hi * m_lo + lo * m_hi + _high_product(lo, b_lo, b_hi) + inc_hi + (new_lo < product_lo)
-    return new_hi, new_lo
+_M_LO, _M_HI = np.uint64(_PCG_MULT_LO), np.uint64(_PCG_MULT_HI)
+_B_LO, _B_HI = _M_LO & _LOW32, _M_LO >> _S32  # the multiplier's low word in 32-bit halves
+_U1, _U11, _U58, _U63 = np.uint64(1), np.uint64(11), np.uint64(58), np.uint64(63)
+_TO_UNIT = 1.0 / 9007199254740992.0  # next_double: the top 53 bits over 2**53
+# Rows are drawn in slices small enough for the scratch arrays to stay in the CPU cache;
+# every operation writes into a scratch array instead of allocating a new one.
+_CHUNK = 16384
+
+
+def _pcg_step(hi, lo, inc_hi, inc_lo, t) -> None:
+    """One PCG64 step in place: state * multiplier + increment modulo 2**128, on (high, low)
+    uint64 halves. ``t`` holds four uint64 scratch arrays and one bool array of the same length."""
+    a, b, c, d, carry = t
+    # The high 64 bits of lo * multiplier_low, from 32-bit halves (as the old scalar formula).
+    np.bitwise_and(lo, _LOW32, out=a)  # lo's low half
+    np.right_shift(lo, _S32, out=b)  # lo's high half
+    np.multiply(a, _B_LO, out=c)
+    np.right_shift(c, _S32, out=c)
+    np.multiply(a, _B_HI, out=a)
+    np.add(c, a, out=c)
+    np.multiply(b, _B_LO, out=d)
+    np.bitwise_and(d, _LOW32, out=a)
+    np.add(c, a, out=c)  # the cross sum
+    np.right_shift(c, _S32, out=c)
+    np.right_shift(d, _S32, out=d)
+    np.add(c, d, out=c)
+    np.multiply(b, _B_HI, out=b)
+    np.add(c, b, out=c)
+    # high = hi * m_lo + lo * m_hi + c + inc_hi + carry of the low word.
+    np.multiply(hi, _M_LO, out=hi)
+    np.add(hi, c, out=hi)
+    np.multiply(lo, _M_HI, out=a)
+    np.add(hi, a, out=hi)
+    np.add(hi, inc_hi, out=hi)
+    np.multiply(lo, _M_LO, out=a)  # low word of the product
+    np.add(a, inc_lo, out=lo)
+    np.less(lo, a, out=carry)
+    np.add(hi, carry, out=hi)
+
+
+def _pcg_output(hi, lo, out, t) -> None:
+    """PCG64's XSL-RR output of the state as a double in [0, 1), written into ``out``."""
+    a, b, c, _, _ = t
+    np.right_shift(hi, _U58, out=a)  # rotation
+    np.bitwise_xor(hi, lo, out=b)
+    np.right_shift(b, a, out=c)
+    np.negative(a, out=a)  # (64 - rotation) mod 64, as a left shift
+    np.bitwise_and(a, _U63, out=a)
+    np.left_shift(b, a, out=b)
+    np.bitwise_or(c, b, out=c)
+    np.right_shift(c, _U11, out=c)
+    np.multiply(c, _TO_UNIT, out=out)
+
+
+def _pcg_run(state: list, skip: int, count: int) -> NDArray[np.float64]:
+    """Move PCG64 states (hi, lo, inc_hi, inc_lo arrays, updated in place) ``skip`` steps without
+    output, then ``count`` steps with it: a (count, rows) array of doubles in [0, 1)."""
+    hi, lo, inc_hi, inc_lo = state
+    rows = hi.size
+    out = np.empty((count, rows))
+    size = min(rows, _CHUNK)
+    scratch = [np.empty(size, np.uint64) for _ in range(4)] + [np.empty(size, bool)]
+    with np.errstate(over="ignore"):
+        for start in range(0, rows, _CHUNK):
+            part = slice(start, min(rows, start + _CHUNK))
+            t = [s[:part.stop - part.start] for s in scratch]
+            h, lw, ih, il = hi[part], lo[part], inc_hi[part], inc_lo[part]
+            for _ in range(skip):
+                _pcg_step(h, lw, ih, il, t)
+            for i in range(count):
+                _pcg_step(h, lw, ih, il, t)
+                _pcg_output(h, lw, out[i, part], t)
+    return out
+
+
+class BulkGenerators:
+    """``np.random.default_rng(key)`` of many rows (one key each) at once, drawn ``random()`` by
+    ``random()``: a row's generator moves on only when that row is drawn, so some rows may stop
+    drawing (a group whose block is over) while the others go on."""
+
+    def __init__(self, seed_words: list) -> None:
+        """From each row's ``SeedSequence(key).generate_state(4, uint64)`` words (``_seed_words``)."""
+        init_hi, init_lo, seq_hi, seq_lo = seed_words
+        with np.errstate(over="ignore"):
+            # pcg64_set_seed: inc = seq << 1 | 1; state = 0 -> step -> += init -> step.
+            self.inc_hi = (seq_hi << _U1) | (seq_lo >> _U63)
+            self.inc_lo = (seq_lo << _U1) | _U1
+            self.lo = self.inc_lo + init_lo
+            self.hi = self.inc_hi + init_hi + (self.lo < self.inc_lo)
+        _pcg_run([self.hi, self.lo, self.inc_hi, self.inc_lo], 1, 0)
+
+    @classmethod
+    def of_key(cls, key: list, rows: int) -> BulkGenerators:
+        """The generators of ``rows`` rows; ``key`` as for ``bulk_uniforms``."""
+        return cls(_seed_words(key, rows))
+
+    def random(self, count: int, rows: slice | NDArray[np.int64] = slice(None)) -> NDArray[np.float64]:
+        """The next ``count`` draws of the rows ``rows`` (a slice, or distinct row numbers):
+        a (count, len(rows)) array."""
+        state = [a[rows] for a in (self.hi, self.lo, self.inc_hi, self.inc_lo)]
+        out = _pcg_run(state, 0, count)
+        if not isinstance(rows, slice):  # gathered copies: the moved states go back
+            self.hi[rows], self.lo[rows] = state[0], state[1]
+        return out
+
+
+def bulk_uniform_draws(key: list, rows: int, count: int) -> NDArray[np.float64]:
+    """``bulk_uniforms`` laid out draw by draw: a (count, rows) array, row r's i-th draw at [i, r]."""
+    return BulkGenerators.of_key(key, rows).random(count)
 
 
 def bulk_uniforms(key: list, rows: int, count: int) -> NDArray[np.float64]:
@@ -156,32 +276,42 @@ def bulk_uniforms(key: list, rows: int, count: int) -> NDArray[np.float64]:
     ``key`` lists the seed key's parts; an int is the same for every row, an array of
     ``rows`` ints (each below 2**32) gives each row its own part.
     """
-    init_hi, init_lo, seq_hi, seq_lo = _seed_words(key, rows)
-    out = np.empty((rows, count))
-    with np.errstate(over="ignore"):
-        # pcg64_set_seed: inc = seq << 1 | 1; state = 0 -> step -> += init -> step.
-        inc_hi = (seq_hi << np.uint64(1)) | (seq_lo >> np.uint64(63))
-        inc_lo = (seq_lo << np.uint64(1)) | np.uint64(1)
-        lo = inc_lo + init_lo
-        hi = inc_hi + init_hi + (lo < inc_lo)
-        hi, lo = _pcg_step(hi, lo, inc_hi, inc_lo)
-        for i in range(count):
-            hi, lo = _pcg_step(hi, lo, inc_hi, inc_lo)
-            rotation = hi >> np.uint64(58)
-            folded = hi ^ lo
-            word = (folded >> rotation) | (folded << ((np.uint64(64) - rotation) & np.uint64(63)))
-            # next_double: the top 53 bits over 2**53.
-            out[:, i] = (word >> np.uint64(11)) * (1.0 / 9007199254740992.0)
-    return out
+    return bulk_uniform_draws(key, rows, count).T
+
+
+class BlockRoundDraws:
+    """``bulk_round_draws`` of many groups for every round of one block.
+
+    The seed key's shared part (seed, stream, group, block) is hashed once; each round
+    then mixes in only its own number.
+    """
+
+    def __init__(self, seed: int, groups: NDArray[np.int64], block: int) -> None:
+        words = _key_words([seed, ROUND_STREAM, np.asarray(groups), block])
+        # The round's number must come after the pool's first words for the split to hold.
+        assert len(words) >= _POOL_SIZE
+        with np.errstate(over="ignore"):
+            self._pool, self._const = _mix_entropy(words)
+
+    def draws(self, rows: slice | NDArray[np.int64], round_number: int) -> NDArray[np.float64]:
+        """(flip, continue) of ``round_rng(seed, groups[r], block, round_number)`` for each r in
+        ``rows`` (a slice or row numbers): a (2, len(rows)) array."""
+        pool = [p[rows] for p in self._pool]  # arrays: the group part varies by row
+        const = self._const
+        with np.errstate(over="ignore"):
+            for word in _key_words([round_number]):
+                pool, const = _absorb(pool, const, word)
+            state = _generate_state(pool, pool[0].size)
+        return BulkGenerators(state).random(2)
 
 
 def bulk_round_draws(
     seed: int, groups: NDArray[np.int64], block: int, round_number: int
 ) -> NDArray[np.float64]:
     """(flip, continue) of ``round_rng(seed, g, block, round_number)`` for every group g: (n, 2)."""
-    return bulk_uniforms([seed, ROUND_STREAM, np.asarray(groups), block, round_number], len(groups), 2)
+    return BlockRoundDraws(seed, groups, block).draws(np.arange(len(groups)), round_number).T
 
 
 def bulk_threshold_uniforms(seed: int, groups: NDArray[np.int64], block: int) -> NDArray[np.float64]:
     """The first ``random()`` of ``threshold_rng(seed, g, block)`` for every group g."""
-    return bulk_uniforms([seed, THRESHOLD_STREAM, np.asarray(groups), block], len(groups), 1)[:, 0]
+    return bulk_uniform_draws([seed, THRESHOLD_STREAM, np.asarray(groups), block], len(groups), 1)[0]

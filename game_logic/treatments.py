@@ -14,13 +14,16 @@ from __future__ import annotations
 from decimal import Decimal
 from typing import Any
 
-from .early_warning import health_reading
+import numpy as np
+from numpy.typing import NDArray
+
+from .early_warning import BANDS, health_reading
 from .money import decimal_text, earnings
 from .rounds import GroupState, RoundOutcome
 from .study import Study
 
-# Treatments whose ``danger_info`` is the same for every group of a block (no threshold, no path).
-GROUP_INDEPENDENT = frozenset({"none", "vague", "range"})
+# Wide enough for every band name: numpy would cut a longer one short without a word.
+BAND_DTYPE = f"<U{max(len(b) for b in BANDS)}"
 
 
 def danger_info(study: Study, state: GroupState) -> dict[str, Any]:
@@ -34,17 +37,56 @@ def danger_info(study: Study, state: GroupState) -> dict[str, Any]:
         low, high = study.threshold.range_shown
         return {"kind": "range", "low": low, "high": high}
     if treatment == "exact":
-        return {"kind": "exact", "level": round(state.threshold, 1)}
+        return {"kind": "exact", "level": told_level(state.threshold)}
     if treatment == "risk":
         return {
             "kind": "risk",
-            "level": round(state.threshold, 1),
+            "level": told_level(state.threshold),
             "flip_probability": study.threshold.flip_probability,
         }
     # Words only: the reading's score and parts stay on the server (console, analysis).
     reading = health_reading(state.stock_path, study.resource.capacity)
     return {"kind": "signal", "band": reading.band, "trend": reading.trend,
             "reasons": list(reading.reasons)}
+
+
+def told_level(threshold: float) -> float:
+    """The danger level the exact and risk treatments tell: the threshold to one decimal."""
+    return round(threshold, 1)
+
+
+def treatments_of(study: Study, block: int, groups: NDArray[np.int64]) -> NDArray[np.str_]:
+    """``treatment_for`` of many groups in ``block``: the rotation has period len(all_treatments)."""
+    spec = study.blocks[block]
+    period = len(spec.all_treatments)
+    return np.array([spec.treatment_for(r) for r in range(period)])[np.asarray(groups) % period]
+
+
+def danger_columns(study: Study, block: int, groups: NDArray[np.int64], thresholds: NDArray[np.float64],
+                   stocks: NDArray[np.int64]) -> dict[str, NDArray]:
+    """What ``danger_info`` says to many groups at the start of ``block``, as columns over the groups.
+
+    ``kind``, ``level``, ``low``, ``high``, ``flip_probability`` and ``band``: a number the
+    treatment does not give is NaN, a band outside ``signal`` is "". A signal's band is read
+    from the block's one-stock path (``stocks``, the stock each group starts the block with);
+    the trend and reasons are left out. The offline pilot's fast path; ``danger_info`` is the rule.
+    """
+    kind = treatments_of(study, block, groups)
+    level, low, high, flip = (np.full(kind.shape, np.nan) for _ in range(4))
+    told = (kind == "exact") | (kind == "risk")
+    if told.any():
+        level[told] = [told_level(t) for t in np.asarray(thresholds, dtype=float)[told].tolist()]
+    ranged = kind == "range"
+    if ranged.any():
+        low[ranged], high[ranged] = study.threshold.range_shown
+    flip[kind == "risk"] = study.threshold.flip_probability
+    band = np.full(kind.shape, "", dtype=BAND_DTYPE)
+    signal = np.flatnonzero(kind == "signal")
+    if signal.size:
+        starts = np.asarray(stocks)[signal]
+        bands = {s: health_reading((s,), study.resource.capacity).band for s in set(starts.tolist())}
+        band[signal] = [bands[s] for s in starts.tolist()]
+    return {"kind": kind, "level": level, "low": low, "high": high, "flip_probability": flip, "band": band}
 
 
 def last_round_info(study: Study, outcome: RoundOutcome, seat: int) -> dict[str, Any]:

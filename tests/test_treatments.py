@@ -2,12 +2,13 @@
 
 import json
 
+import numpy as np
 import pytest
-from studies import make_study
+from studies import TREATMENTS, make_study
 
-from ebbtide.game_logic.rounds import resolve, start_block
+from ebbtide.game_logic.rounds import GroupState, Regime, group_thresholds, resolve, start_block
 from ebbtide.game_logic.seeding import round_rng
-from ebbtide.game_logic.treatments import participant_view
+from ebbtide.game_logic.treatments import danger_columns, danger_info, participant_view
 
 SEED = 3
 THRESHOLD = 'rule = "fixed"\nvalue = 33.7\nrecovery_gap = 15\nflip_probability = 0.35\nshown_range = [20, 50]'
@@ -55,3 +56,25 @@ def test_others_harvests_shown_only_with_show_others():
     assert shown["last_round"]["others"] == [4, 6, 7]  # seat 2 (index 1) sees seats 1, 3, 4
     assert hidden["last_round"]["group_total"] == 22
     assert hidden["last_round"]["taken"] == 5
+
+
+def test_danger_columns_say_what_danger_info_says_to_each_group():
+    # Reference: danger_info, the phone's own rule, called group by group (the pilot's
+    # column form must give every group the same kind, numbers and band).
+    study = make_study(threshold='rule = "uniform"\nlow = 20.05\nhigh = 40.15\nrecovery_gap = 15\n'
+                                 'flip_probability = 0.35\nshown_range = [20, 50]', treatment="none")
+    block = study.blocks[0].model_copy(update={"treatment": None, "treatments": TREATMENTS})
+    study = study.model_copy(update={"blocks": (block,)})
+    groups = np.arange(40) * 7 + 2
+    thresholds = group_thresholds(study, SEED, groups, 0)
+    stocks = np.arange(40) * 3  # the signal's band depends on the stock
+    columns = danger_columns(study, 0, groups, thresholds, stocks)
+    infos = [danger_info(study, GroupState(group=int(g), block=0, round=0, stock=int(s), regime=Regime.GOOD,
+                                           threshold=float(t), stock_path=(int(s),)))
+             for g, t, s in zip(groups, thresholds, stocks, strict=True)]
+    assert columns["kind"].tolist() == [i["kind"] for i in infos]
+    for key in ("level", "low", "high", "flip_probability"):
+        expected = [float(i.get(key, np.nan)) for i in infos]
+        assert np.array_equal(columns[key], expected, equal_nan=True), key
+    assert columns["band"].tolist() == [i.get("band", "") for i in infos]
+    assert set(columns["kind"].tolist()) == set(TREATMENTS)
