@@ -63,7 +63,6 @@ def refresh_for(app, session_id: str, send_now: Callable) -> CoalescedRefresh:
     ``send_now(live)`` builds and emits the whole console state; it runs in an app context,
     on a background task when the refresh was deferred.
     """
-    from ..app import socketio
 
     refreshers = app.extensions.setdefault("ebbtide_console_refresh", {})
     found = refreshers.get(session_id)
@@ -78,11 +77,15 @@ def refresh_for(app, session_id: str, send_now: Callable) -> CoalescedRefresh:
             if registry.current_id == session_id and not registry.store.closed:
                 send_now(registry.current)
 
-    def later(delay: float, fn: Callable[[], None]) -> None:
-        def run() -> None:
-            socketio.sleep(delay)
-            fn()
+    return refreshers.setdefault(session_id, CoalescedRefresh(send, run_later))
 
-        socketio.start_background_task(run)
 
-    return refreshers.setdefault(session_id, CoalescedRefresh(send, later))
+def run_later(delay: float, fn: Callable[[], None]) -> None:
+    """Run ``fn`` after ``delay`` seconds on a background task of the server (greenlet or thread)."""
+    from ..app import socketio
+
+    def run() -> None:
+        socketio.sleep(delay)
+        fn()
+
+    socketio.start_background_task(run)

@@ -62,7 +62,7 @@ def held_for(app, session_id: str, send_now: Callable) -> HeldSeatSnapshots:
 
     ``send_now(live, group, seats)`` runs in an app context, on a background task.
     """
-    from ..app import socketio
+    from ..console.refresh import run_later
 
     holders = app.extensions.setdefault("ebbtide_held_snapshots", {})
     found = holders.get(session_id)
@@ -76,11 +76,4 @@ def held_for(app, session_id: str, send_now: Callable) -> HeldSeatSnapshots:
             if registry.current_id == session_id and not registry.store.closed:
                 send_now(registry.current, group, seats)
 
-    def later(delay: float, fn: Callable[[], None]) -> None:
-        def run() -> None:
-            socketio.sleep(delay)
-            fn()
-
-        socketio.start_background_task(run)
-
-    return holders.setdefault(session_id, HeldSeatSnapshots(send, later))
+    return holders.setdefault(session_id, HeldSeatSnapshots(send, run_later))
