@@ -5,6 +5,7 @@ from __future__ import annotations
 import csv
 import hashlib
 import json
+import operator
 from collections.abc import Iterable
 from decimal import Decimal
 from pathlib import Path
@@ -50,6 +51,9 @@ def table_schema(name: str) -> dict:
 
 
 def _cell(value):
+    kind = type(value)
+    if kind is str or kind is int:  # most cells, written as they are (bool is not int here)
+        return value
     if isinstance(value, bool):
         return "1" if value else "0"  # R's read.csv and Stata read 0/1 as numbers
     if isinstance(value, float):
@@ -77,8 +81,13 @@ class TableFile:
         self._writer.writerow(self.names)
 
     def write_rows(self, rows: Iterable[dict]) -> None:
+        # Ten million rows for a large pilot: the values fetched in C, and only the cells that
+        # are not already text or a whole number go through ``_cell``.
         names = self.names
-        self._writer.writerows([_cell(row[name]) for name in names] for row in rows)
+        values = operator.itemgetter(*names) if len(names) > 1 else (lambda row: (row[names[0]],))
+        self._writer.writerows(
+            [v if type(v) is str or type(v) is int else _cell(v) for v in values(row)] for row in rows
+        )
 
     def close(self) -> None:
         self._handle.close()

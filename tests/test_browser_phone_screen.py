@@ -40,6 +40,12 @@ def test_choice_confirm_and_result_fit_one_screen(start_server, demo_study, brow
         for _ in range(3):
             page.locator("#more").tap()
         page.locator("#confirm").tap()
+        # "Recorded" comes from the acknowledgement, then from the seat's own snapshot.
+        page.wait_for_function("document.getElementById('chooser').hidden === true && "
+                               "/3/.test(document.getElementById('status').textContent)")
+        ARTIFACTS.mkdir(exist_ok=True)
+        page.screenshot(path=str(ARTIFACTS / f"phone-recorded-{language}-{width}x{height}.png"))
+        assert _inside(page.locator("#status").bounding_box(), width, height)
         assert other.harvest("other-seat-1", 1, 1, 5)["ok"]
         page.locator("#result").wait_for(state="visible")
         page.wait_for_function("document.getElementById('chooser').hidden === false")
