@@ -69,6 +69,8 @@ class Bot:
 
     def _on_snapshot(self, snap: dict) -> None:
         with self._lock:
+            if self.latest and snap["seq"] < self.latest["seq"]:
+                return  # an older picture arriving late changes nothing (as on the phone page)
             self.latest = snap
             day = snap.get("field_day") or {}
             if day.get("stage", "game") not in ("game", "end", "declined"):

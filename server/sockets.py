@@ -15,6 +15,7 @@ from __future__ import annotations
 import functools
 import hmac
 import logging
+import threading
 import time
 from collections import deque
 from collections.abc import Callable
@@ -74,8 +75,14 @@ def console_room(session_id: str) -> str:
     return f"console:{session_id}"
 
 
+# Built and sent one at a time, so a seat never receives an older snapshot after a newer one
+# (a held "recorded" snapshot and its group's result may be built on different tasks).
+_SNAPSHOT_ORDER = threading.Lock()
+
+
 def send_seat(live: LiveSession, group: int, seat: int) -> None:
-    socketio.emit("snapshot", live.seat_snapshot(group, seat), to=seat_room(live.session_id, group, seat))
+    with _SNAPSHOT_ORDER:
+        socketio.emit("snapshot", live.seat_snapshot(group, seat), to=seat_room(live.session_id, group, seat))
 
 
 def send_group(live: LiveSession, group: int) -> None:
