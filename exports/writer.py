@@ -51,9 +51,6 @@ def table_schema(name: str) -> dict:
 
 
 def _cell(value):
-    kind = type(value)
-    if kind is str or kind is int:  # most cells, written as they are (bool is not int here)
-        return value
     if isinstance(value, bool):
         return "1" if value else "0"  # R's read.csv and Stata read 0/1 as numbers
     if isinstance(value, float):
@@ -82,7 +79,8 @@ class TableFile:
 
     def write_rows(self, rows: Iterable[dict]) -> None:
         # Ten million rows for a large pilot: the values fetched in C, and only the cells that
-        # are not already text or a whole number go through ``_cell``.
+        # are not already text or a whole number go through ``_cell`` (``type``: a bool is not
+        # an int here).
         names = self.names
         values = operator.itemgetter(*names) if len(names) > 1 else (lambda row: (row[names[0]],))
         self._writer.writerows(

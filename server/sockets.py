@@ -18,7 +18,7 @@ import logging
 import threading
 import time
 from collections import deque
-from collections.abc import Callable
+from collections.abc import Callable, Iterable
 from dataclasses import dataclass
 
 from flask import current_app, request, session
@@ -87,8 +87,7 @@ def send_seat(live: LiveSession, group: int, seat: int) -> None:
 
 def send_group(live: LiveSession, group: int) -> None:
     held_for(current_app, live.session_id, send_seats_now).group_sent(group)
-    for seat in range(live.study.seats):
-        send_seat(live, group, seat)
+    send_seats_now(live, group, range(live.study.seats))
 
 
 def send_seat_soon(live: LiveSession, group: int, seat: int) -> None:
@@ -96,7 +95,7 @@ def send_seat_soon(live: LiveSession, group: int, seat: int) -> None:
     held_for(current_app, live.session_id, send_seats_now).decided(group, seat)
 
 
-def send_seats_now(live: LiveSession, group: int, seats: list[int]) -> None:
+def send_seats_now(live: LiveSession, group: int, seats: Iterable[int]) -> None:
     for seat in seats:
         send_seat(live, group, seat)
 

@@ -175,10 +175,9 @@ seats_per_group = {seats}
 capacity = {capacity}
 initial_stock = {start}
 max_harvest = {cap}
-degraded_growth_factor = 0.2
+degraded_growth_factor = {factor}
 [resource.growth]
-law = "logistic"
-r = 0.5
+{growth}
 [threshold]
 {threshold}
 [[blocks]]
@@ -187,7 +186,9 @@ rounds = {rounds}
 """
 
 
-def dp_study(seats=4, capacity=100, start=80, cap=10, threshold='rule = "none"', rounds=10):
+def dp_study(seats=4, capacity=100, start=80, cap=10, threshold='rule = "none"', rounds=10,
+             growth='law = "logistic"\nr = 0.5', factor=0.2):
     return parse_study(DP_TOML.format(
-        seats=seats, capacity=capacity, start=start, cap=cap, threshold=threshold, rounds=rounds
+        seats=seats, capacity=capacity, start=start, cap=cap, threshold=threshold, rounds=rounds,
+        growth=growth, factor=factor,
     ))

@@ -7,7 +7,7 @@ import functools
 import numpy as np
 import pytest
 from numpy.testing import assert_allclose
-from studies import DP_TOML, dp_study
+from studies import dp_study
 
 from ebbtide.game_logic.benchmarks import (
     optimal_group_policy,
@@ -16,7 +16,6 @@ from ebbtide.game_logic.benchmarks import (
 )
 from ebbtide.game_logic.resource import next_regime, regrow
 from ebbtide.game_logic.rounds import advance
-from ebbtide.game_logic.study import parse_study
 
 
 def follow(study, policy, start, threshold):
@@ -81,10 +80,8 @@ def test_heavy_discounting_makes_the_planner_take_the_maximum():
 def test_value_matches_brute_force_expectimax_with_flip_risk():
     # Independent check: plain recursion over every harvest and both flip outcomes,
     # written from the model's rules, on a tiny stock.
-    study = parse_study(DP_TOML.format(
-        seats=2, capacity=12, start=10, cap=3, rounds=4,
-        threshold='rule = "fixed"\nvalue = 6\nrecovery_gap = 3\nflip_probability = 0.4',
-    ))
+    study = dp_study(seats=2, capacity=12, start=10, cap=3, rounds=4,
+                     threshold='rule = "fixed"\nvalue = 6\nrecovery_gap = 3\nflip_probability = 0.4')
     spec, p = study.resource, 0.4
 
     @functools.cache

@@ -12,37 +12,15 @@ from __future__ import annotations
 import numpy as np
 import pytest
 from numpy.testing import assert_allclose, assert_array_equal
+from studies import dp_study
 
 from ebbtide.game_logic.benchmarks import ThresholdBelief, optimal_group_policy, threshold_belief
 from ebbtide.game_logic.resource import next_regime, regrow
-from ebbtide.game_logic.study import parse_study
-
-TOML = """
-[session]
-id = "dp-reference"
-title = "Brute-force reference check (invented)"
-[groups]
-count = 1
-seats_per_group = {seats}
-[resource]
-capacity = {capacity}
-initial_stock = {capacity}
-max_harvest = {cap}
-degraded_growth_factor = {factor}
-[resource.growth]
-{growth}
-[threshold]
-{threshold}
-flip_probability = {flip}
-[[blocks]]
-name = "season"
-rounds = {rounds}
-"""
 
 
 def make_study(seats, capacity, cap, threshold, flip, rounds, growth='law = "logistic"\nr = 0.5', factor=0.2):
-    return parse_study(TOML.format(seats=seats, capacity=capacity, cap=cap, factor=factor, growth=growth,
-                                   threshold=threshold, flip=flip, rounds=rounds))
+    return dp_study(seats=seats, capacity=capacity, start=capacity, cap=cap, rounds=rounds, growth=growth,
+                    factor=factor, threshold=f"{threshold}\nflip_probability = {flip}")
 
 
 def brute_force_policy(study, rounds, discount=1.0, continuation=None, belief=None):

@@ -45,7 +45,7 @@ def test_a_drawn_gauge_is_reused_only_for_the_same_picture(tmp_path):
         drawn = {}
         for language in ("en", "es", "en"):
             for name, view in (("calm", calm), ("lower", lower), ("exact", exact), ("calm", calm)):
-                drawn[(language, name)] = gauge_svg(language, lambda view=view: view, "stock")
+                drawn[(language, name)] = gauge_svg(language, view, "stock")
                 with force_locale(language):
                     direct = stock_gauge_svg(view, labels=gauge_labels(), id_prefix="stock")
                 assert drawn[(language, name)] == direct

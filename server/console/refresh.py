@@ -63,7 +63,6 @@ def refresh_for(app, session_id: str, send_now: Callable) -> CoalescedRefresh:
     ``send_now(live)`` builds and emits the whole console state; it runs in an app context,
     on a background task when the refresh was deferred.
     """
-
     refreshers = app.extensions.setdefault("ebbtide_console_refresh", {})
     found = refreshers.get(session_id)
     if found is not None:

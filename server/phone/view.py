@@ -46,21 +46,22 @@ def gauge_labels() -> dict[str, str]:
 GAUGE_CACHE_SIZE = 4096  # distinct (language, stock, danger) pictures kept; a session draws far fewer
 
 
-def gauge_svg(language: str, view: Callable[[], dict[str, Any]], id_prefix: str,
-              key: tuple | None = None) -> str:
-    """The stock gauge of a participant view in ``language``, drawn once per distinct picture.
+def gauge_svg(language: str, view: dict[str, Any], id_prefix: str) -> str:
+    """The stock gauge of a participant view in ``language``, drawn once per distinct picture."""
+    key = (language, id_prefix, view["stock"], view["capacity"], str(view.get("unit", "")),
+           json.dumps(view["danger"], sort_keys=True, default=str))
+    return _drawn_once(key, language, lambda: view, id_prefix)
+
+
+def _drawn_once(key: tuple, language: str, view: Callable[[], dict[str, Any]], id_prefix: str) -> str:
+    """The gauge drawn under ``key``, which must name every part of the view the drawing reads.
 
     A gauge depends only on the stock, the capacity, the unit and the danger the view
     allows (``pictures.gauge``), so the five seats of a group, and the console's card of
     that group, share one drawing; drawing it for every snapshot was a fifth of the
-    server's time in a round with hundreds of phones (docs/performance.md). ``view``
-    gives the view's dict when the picture must be drawn; ``key``, if given, must name
-    exactly those parts of it.
+    server's time in a round with hundreds of phones (docs/performance.md). ``view`` gives
+    the view's dict, asked for only when the picture must be drawn.
     """
-    if key is None:
-        drawn = view()
-        key = (language, id_prefix, drawn["stock"], drawn["capacity"], str(drawn.get("unit", "")),
-               json.dumps(drawn["danger"], sort_keys=True, default=str))
     cache = current_app.extensions.setdefault("ebbtide_gauges", {})
     svg = cache.get(key)
     if svg is None:
@@ -110,7 +111,7 @@ class PhonePainter:
     def gauge(self, view: PhoneView) -> str:
         # The key from the frozen model itself: dumping the whole view only when drawing.
         key = (self.language, "stock", view.stock, view.capacity, view.unit, view.danger.model_dump_json())
-        return gauge_svg(self.language, lambda: view.model_dump(mode="json"), "stock", key)
+        return _drawn_once(key, self.language, lambda: view.model_dump(mode="json"), "stock")
 
     def debrief_sentence(self, facts: DebriefFacts, unit: str) -> str:
         with force_locale(self.language):
@@ -146,8 +147,7 @@ def add_to_console_snapshot(live, snapshot: dict[str, Any]) -> dict[str, Any]:
         for g, group in enumerate(snapshot["groups"]):
             progress = state.groups[g]
             view = participant_view(live.study, progress.state, 0, progress.last_outcome, 0)
-            group["gauge_svg"] = gauge_svg(live.study.session.language, lambda view=view: view,
-                                           f"console-g{g + 1}")
+            group["gauge_svg"] = gauge_svg(live.study.session.language, view, f"console-g{g + 1}")
             left = talk_remaining(live, g)
             group["talk_remaining"] = None if left is None else round(left, 1)
             if group["treatment"] == "signal":
